@@ -1,0 +1,143 @@
+//! Isotonic regression by pool-adjacent-violators.
+//!
+//! Tied scores are pooled first into one point with their summed weight (the
+//! "secondary" approach of de Leeuw 1977), so tied inputs always get one
+//! output. Between fitted thresholds we interpolate linearly and outside them
+//! we clip to the end values. We prefer interpolation to the step function of
+//! Zadrozny & Elkan because a step map turns nearby scores into large ties,
+//! which coarsens ranking and makes equal-mass bins degenerate; the choice is
+//! the same as scikit-learn's calibrator, so results are comparable with it.
+
+use super::{BinaryCalibrator, BinaryMap, Input};
+use crate::error::Result;
+
+/// Isotonic regression on the raw probability.
+pub struct Isotonic;
+
+/// A fitted isotonic map: increasing thresholds and non-decreasing values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IsotonicMap {
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+}
+
+impl IsotonicMap {
+    /// Fits with unit weights.
+    pub fn fit(scores: &[f64], targets: &[f64]) -> IsotonicMap {
+        Self::fit_weighted(scores, targets, &vec![1.0; scores.len()])
+    }
+
+    /// Fits a weighted non-decreasing least-squares map. Inputs must be
+    /// finite and non-empty.
+    pub fn fit_weighted(scores: &[f64], targets: &[f64], weights: &[f64]) -> IsotonicMap {
+        let mut order: Vec<usize> = (0..scores.len()).collect();
+        order.sort_by(|&i, &j| scores[i].total_cmp(&scores[j]));
+        // Pool ties: (x, weighted sum of y, summed weight).
+        let mut points: Vec<(f64, f64, f64)> = Vec::new();
+        for &i in &order {
+            let (x, y, w) = (scores[i], targets[i], weights[i]);
+            match points.last_mut() {
+                Some(last) if last.0 == x => {
+                    last.1 += w * y;
+                    last.2 += w;
+                }
+                _ => points.push((x, w * y, w)),
+            }
+        }
+        // PAV: blocks of (weighted sum, weight, number of points).
+        let mut blocks: Vec<(f64, f64, usize)> = Vec::with_capacity(points.len());
+        for &(_, sy, w) in &points {
+            blocks.push((sy, w, 1));
+            while blocks.len() > 1 {
+                let (s2, w2, n2) = blocks[blocks.len() - 1];
+                let (s1, w1, n1) = blocks[blocks.len() - 2];
+                if s1 / w1 <= s2 / w2 {
+                    break;
+                }
+                blocks.pop();
+                let last = blocks.len() - 1;
+                blocks[last] = (s1 + s2, w1 + w2, n1 + n2);
+            }
+        }
+        let mut y = Vec::with_capacity(points.len());
+        for &(s, w, n) in &blocks {
+            y.extend(std::iter::repeat_n(s / w, n));
+        }
+        IsotonicMap {
+            x: points.iter().map(|p| p.0).collect(),
+            y,
+        }
+    }
+}
+
+impl BinaryMap for IsotonicMap {
+    fn apply(&self, s: f64) -> f64 {
+        let n = self.x.len();
+        if s <= self.x[0] {
+            return self.y[0];
+        }
+        if s >= self.x[n - 1] {
+            return self.y[n - 1];
+        }
+        // First threshold strictly above s; s lies in [x[j-1], x[j]).
+        let j = self.x.partition_point(|&v| v <= s);
+        let (x0, x1, y0, y1) = (self.x[j - 1], self.x[j], self.y[j - 1], self.y[j]);
+        y0 + (y1 - y0) * (s - x0) / (x1 - x0)
+    }
+}
+
+impl BinaryCalibrator for Isotonic {
+    fn input(&self) -> Input {
+        Input::Probability
+    }
+
+    fn fit(&self, scores: &[f64], labels: &[bool]) -> Result<Box<dyn BinaryMap>> {
+        let targets: Vec<f64> = labels.iter().map(|&l| f64::from(u8::from(l))).collect();
+        Ok(Box::new(IsotonicMap::fit(scores, &targets)))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn close(a: &[f64], b: &[f64]) -> bool {
+        a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).abs() < 1e-12)
+    }
+
+    #[test]
+    fn pav_on_the_reference_sequence() {
+        // CV-09b in shared/reference/METHODS.md.
+        let x = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0];
+        let m = IsotonicMap::fit(&x, &[1.0, 3.0, 2.0, 4.0, 3.0, 5.0]);
+        assert!(close(&m.y, &[1.0, 2.5, 2.5, 3.5, 3.5, 5.0]));
+    }
+
+    #[test]
+    fn ties_are_pooled_with_summed_weights() {
+        // CV-09 in shared/reference/METHODS.md (scikit-learn PR #9484):
+        // thresholds (0, 1, 2, 3) with values (0, 1/3, 1/3, 1).
+        let m = IsotonicMap::fit(&[0.0, 1.0, 1.0, 2.0, 3.0], &[0.0, 0.0, 1.0, 0.0, 1.0]);
+        assert!(close(&m.x, &[0.0, 1.0, 2.0, 3.0]));
+        assert!(close(&m.y, &[0.0, 1.0 / 3.0, 1.0 / 3.0, 1.0]));
+    }
+
+    #[test]
+    fn duplicate_minimum_predicts_a_number() {
+        // CV-09c in shared/reference/METHODS.md (scikit-learn PR #3995).
+        let m = IsotonicMap::fit(&[0.0, 0.0, 1.0], &[0.0, 0.0, 1.0]);
+        assert_eq!(m.apply(0.0), 0.0);
+    }
+
+    #[test]
+    fn interpolates_between_thresholds_and_clips_outside() {
+        // CV-10 in shared/reference/METHODS.md: fitted (0, .5, .5, 1);
+        // scikit-learn's linear interpolation gives 0.25, 0.75, 1.0.
+        let m = IsotonicMap::fit(&[0.1, 0.3, 0.5, 0.7], &[0.0, 1.0, 0.0, 1.0]);
+        assert!(close(&m.y, &[0.0, 0.5, 0.5, 1.0]));
+        assert!((m.apply(0.2) - 0.25).abs() < 1e-12);
+        assert!((m.apply(0.6) - 0.75).abs() < 1e-12);
+        assert_eq!(m.apply(0.9), 1.0);
+        assert_eq!(m.apply(0.0), 0.0);
+    }
+}

@@ -1,0 +1,111 @@
+//! Model families: the learners whose probabilities candor evaluates.
+//!
+//! A family follows linfa's "parameters, then `fit`, then a fitted model"
+//! shape: a [`Learner`] holds checked parameters, `fit` trains it on one
+//! training split, and the returned [`Model`] scores new rows. Adding a family
+//! is one new file that defines a [`Family`] plus one line in [`FAMILIES`].
+
+mod logistic;
+mod naive_bayes;
+
+use crate::error::Result;
+use crate::params::{ParamSpec, Params};
+use ndarray::{Array2, ArrayView2};
+
+/// What a fitted model says about a set of rows.
+#[derive(Debug, Clone)]
+pub struct Scores {
+    /// Class probabilities, one row per input row and one column per class;
+    /// each row sums to 1. This is the "raw" (uncalibrated) forecast.
+    pub proba: Array2<f64>,
+    /// The family's native score, which calibrators such as Platt scaling
+    /// work on: for a binary task one column holding the positive class's
+    /// log-odds (or margin); for a multiclass task one column per class
+    /// (logits or log-probabilities).
+    pub native: Array2<f64>,
+}
+
+/// A family with its parameters set, ready to be trained on any split.
+pub trait Learner: Send + Sync {
+    /// Whether features should be standardised (centred and scaled on the
+    /// training split) before `fit`; scale-sensitive families say yes.
+    fn wants_standardised(&self) -> bool;
+
+    /// Trains on rows `x` with labels `y` in `0..n_classes`. `seed` is the
+    /// only source of randomness the learner may use, which keeps results
+    /// identical whatever the thread count.
+    fn fit(
+        &self,
+        x: ArrayView2<'_, f64>,
+        y: &[usize],
+        n_classes: usize,
+        seed: u64,
+    ) -> Result<Box<dyn Model>>;
+}
+
+/// A trained model.
+pub trait Model: Send {
+    /// Scores rows with the same columns as the training rows.
+    fn predict(&self, x: ArrayView2<'_, f64>) -> Scores;
+}
+
+/// A registry entry: a family kind, its documented parameters and how to
+/// build a learner from checked parameter values.
+pub struct Family {
+    /// The `kind` used in manifests.
+    pub kind: &'static str,
+    /// One line for `candor families`.
+    pub about: &'static str,
+    /// Every parameter the family accepts.
+    pub params: &'static [ParamSpec],
+    /// Builds a learner; the parameters have been checked against `params`.
+    pub build: fn(&Params) -> Box<dyn Learner>,
+}
+
+/// Every family candor knows, in the order `candor families` lists them.
+pub const FAMILIES: &[&Family] = &[&logistic::FAMILY, &naive_bayes::FAMILY];
+
+/// Looks up a family kind by its manifest name.
+pub fn find(kind: &str) -> Option<&'static Family> {
+    FAMILIES.iter().copied().find(|f| f.kind == kind)
+}
+
+/// The known kinds, for error messages.
+pub fn known_kinds() -> String {
+    FAMILIES
+        .iter()
+        .map(|f| f.kind)
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// Turns per-class log-scores (log-likelihoods or logits) into normalised
+/// log-probabilities with the max-shift, so that very negative scores do not
+/// underflow to `ln(0/0)`.
+pub(crate) fn log_softmax_rows(scores: &Array2<f64>) -> Array2<f64> {
+    let mut out = scores.clone();
+    for mut row in out.rows_mut() {
+        let max = row.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let sum: f64 = row.iter().map(|v| (v - max).exp()).sum();
+        let log_norm = max + sum.ln();
+        row.mapv_inplace(|v| v - log_norm);
+    }
+    out
+}
+
+/// Probabilities from per-class log-scores; see [`log_softmax_rows`].
+pub(crate) fn softmax_rows(scores: &Array2<f64>) -> Array2<f64> {
+    log_softmax_rows(scores).mapv(f64::exp)
+}
+
+/// Probabilities `[1 - p, p]` from the positive class's log-odds, computed
+/// without cancellation at either extreme.
+pub(crate) fn binary_from_log_odds(z: &[f64]) -> Array2<f64> {
+    let mut out = Array2::zeros((z.len(), 2));
+    for (i, &zi) in z.iter().enumerate() {
+        let p = crate::math::sigmoid(zi);
+        out[[i, 1]] = p;
+        out[[i, 0]] = crate::math::sigmoid(-zi);
+    }
+    out
+}

@@ -1,0 +1,31 @@
+//! candor: choose a model family and a post-hoc calibration method for a
+//! probability-estimation problem, and show repeatably how well calibrated
+//! each choice is.
+//!
+//! The library holds everything; the `candor` binary is a thin command line
+//! over [`manifest::load`] and [`runner::run`]. Extension points are small
+//! registries: [`learner::FAMILIES`], [`calibrate::METHODS`],
+//! [`metrics::METRICS`] and the [`export::Exporter`] implementations.
+
+pub mod calibrate;
+pub mod catalog;
+pub mod data;
+pub mod error;
+pub mod export;
+pub mod folds;
+pub mod learner;
+pub mod manifest;
+pub mod math;
+pub mod metrics;
+pub mod params;
+pub mod preprocess;
+pub mod protocol;
+pub mod rng;
+pub mod runner;
+pub mod store;
+pub mod summary;
+
+pub use error::{Error, Result};
+
+/// The version recorded in every output, so results can be traced to code.
+pub const VERSION: &str = env!("CARGO_PKG_VERSION");

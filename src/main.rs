@@ -1,0 +1,212 @@
+//! The `candor` command line: a thin layer over the library.
+
+use candor::export::{Exporter, Text};
+use candor::runner::{self, RunOptions};
+use candor::{calibrate, catalog, learner, manifest, metrics};
+use clap::{Parser, Subcommand, ValueEnum};
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+#[derive(Parser)]
+#[command(
+    name = "candor",
+    version,
+    about = "Compare model families and post-hoc calibration methods with cross-fitted calibration folds"
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Train, calibrate and evaluate everything a manifest lists, then print
+    /// calibration error before and after each method.
+    Run {
+        /// The experiment manifest (TOML).
+        manifest: PathBuf,
+        /// Results folder [default: results/<experiment name>].
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Worker threads; 0 uses every core. Results do not depend on it.
+        #[arg(long, default_value_t = 0)]
+        threads: usize,
+        /// Folder holding the bundled datasets and their catalog.json.
+        #[arg(long)]
+        datasets: Option<PathBuf>,
+        /// No progress bar and no table; errors only.
+        #[arg(long, short)]
+        quiet: bool,
+    },
+    /// Check a manifest and its datasets without training anything.
+    Check {
+        /// The experiment manifest (TOML).
+        manifest: PathBuf,
+        /// Folder holding the bundled datasets and their catalog.json.
+        #[arg(long)]
+        datasets: Option<PathBuf>,
+    },
+    /// List what a manifest can name.
+    List {
+        #[arg(value_enum)]
+        what: ListWhat,
+        /// Folder holding the bundled datasets (for `list datasets`).
+        #[arg(long)]
+        datasets: Option<PathBuf>,
+    },
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum ListWhat {
+    /// Model family kinds and their parameters.
+    Families,
+    /// Calibration methods.
+    Methods,
+    /// Metrics.
+    Metrics,
+    /// Bundled datasets.
+    Datasets,
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match execute(cli.command) {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("error: {e}");
+            ExitCode::FAILURE
+        }
+    }
+}
+
+fn execute(command: Command) -> candor::Result<ExitCode> {
+    match command {
+        Command::Run {
+            manifest: path,
+            out,
+            threads,
+            datasets,
+            quiet,
+        } => {
+            let exp = manifest::load(&path)?;
+            let out_dir = out.unwrap_or_else(|| PathBuf::from("results").join(&exp.name));
+            let options = RunOptions {
+                out_dir: out_dir.clone(),
+                threads,
+                datasets_dir: datasets,
+                progress: !quiet && std::io::stderr().is_terminal(),
+            };
+            let report = runner::run(&exp, &options)?;
+            for w in &report.warnings {
+                eprintln!("note: {w}");
+            }
+            if !quiet {
+                let shown: Vec<String> = ["ece", "brier"]
+                    .iter()
+                    .filter(|m| exp.metrics.iter().any(|x| x == *m))
+                    .map(|m| m.to_string())
+                    .collect();
+                let shown = if shown.is_empty() {
+                    exp.metrics.iter().take(2).cloned().collect()
+                } else {
+                    shown
+                };
+                print!("{}", Text { metrics: shown }.render(&report.summary));
+                println!(
+                    "{} cells computed, {} reused; results in {}",
+                    report.computed,
+                    report.reused,
+                    out_dir.display()
+                );
+            }
+            if report.failures.is_empty() {
+                Ok(ExitCode::SUCCESS)
+            } else {
+                for f in &report.failures {
+                    eprintln!("failed: {f}");
+                }
+                eprintln!(
+                    "error: {} cell(s) or method(s) failed; their errors are in {}/records.jsonl, the other results are complete",
+                    report.failures.len(),
+                    out_dir.display()
+                );
+                Ok(ExitCode::from(3))
+            }
+        }
+        Command::Check {
+            manifest: path,
+            datasets,
+        } => {
+            let exp = manifest::load(&path)?;
+            let tables = runner::load_datasets(&exp, datasets.as_deref())?;
+            for t in &tables {
+                for w in &t.warnings {
+                    eprintln!("note: {w}");
+                }
+                let counts: Vec<String> = t
+                    .classes
+                    .iter()
+                    .zip(t.class_counts())
+                    .map(|(c, n)| format!("{c}: {n}"))
+                    .collect();
+                println!(
+                    "{}: {} rows, {} feature columns, classes {{{}}}",
+                    t.name,
+                    t.rows(),
+                    t.columns.len(),
+                    counts.join(", ")
+                );
+            }
+            let e = exp.evaluation;
+            println!(
+                "{}: ok; {} datasets x {} families x {} repeats x {} folds = {} cells, methods: {}",
+                path.display(),
+                exp.datasets.len(),
+                exp.families.len(),
+                e.repeats,
+                e.outer_folds,
+                exp.datasets.len() * exp.families.len() * e.repeats * e.outer_folds,
+                exp.methods.join(", ")
+            );
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::List { what, datasets } => {
+            match what {
+                ListWhat::Families => {
+                    for f in learner::FAMILIES {
+                        println!("{:12} {}", f.kind, f.about);
+                        for p in f.params {
+                            println!("    {:14} default {:?}: {}", p.name, p.default, p.about);
+                        }
+                    }
+                }
+                ListWhat::Methods => {
+                    for m in calibrate::METHODS {
+                        println!("{:12} {}", m.name, m.about);
+                    }
+                }
+                ListWhat::Metrics => {
+                    for m in metrics::METRICS {
+                        println!("{:12} {}", m.name, m.about);
+                    }
+                }
+                ListWhat::Datasets => {
+                    let cat = catalog::Catalog::locate(datasets.as_deref(), std::path::Path::new("."))?;
+                    for e in &cat.entries {
+                        let positive = e
+                            .positive
+                            .as_deref()
+                            .map(|p| format!(", positive `{p}`"))
+                            .unwrap_or_default();
+                        println!(
+                            "{:34} {:10} {:>6} rows{positive}  {}",
+                            e.id, e.task, e.rows, e.name
+                        );
+                    }
+                }
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+    }
+}

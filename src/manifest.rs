@@ -1,0 +1,478 @@
+//! The experiment manifest: a TOML file naming the datasets, model families,
+//! calibration methods, metrics and evaluation protocol.
+//!
+//! Parsing is strict: unknown keys, wrong types, duplicate names, unknown
+//! families, methods or metrics and out-of-range settings are rejected with
+//! `file:line:column: message`, where the message says what is allowed.
+//! See the README's manifest reference for every key.
+
+use crate::error::{Error, Result};
+use crate::params::{self, Params};
+use crate::{calibrate, learner, metrics};
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use toml::Spanned;
+
+/// A checked experiment, ready to run.
+#[derive(Debug, Clone, Serialize)]
+pub struct Experiment {
+    /// Names the results folder and every report.
+    pub name: String,
+    /// The experiment seed; every fold split and model seed derives from it.
+    pub seed: u64,
+    pub evaluation: Evaluation,
+    pub datasets: Vec<DatasetSpec>,
+    pub families: Vec<FamilySpec>,
+    /// Calibration methods, always starting with `none` (the raw row).
+    pub methods: Vec<String>,
+    pub metrics: Vec<String>,
+    /// The file this came from, its text and hash.
+    #[serde(skip)]
+    pub source: ManifestSource,
+}
+
+/// The manifest file as read, kept so every output can record it.
+#[derive(Debug, Clone, Default)]
+pub struct ManifestSource {
+    pub path: PathBuf,
+    pub text: String,
+    /// SHA-256 of the file's bytes, hex.
+    pub sha256: String,
+}
+
+impl ManifestSource {
+    /// The folder relative paths in the manifest are resolved against.
+    pub fn dir(&self) -> &Path {
+        self.path.parent().unwrap_or(Path::new("."))
+    }
+}
+
+/// The evaluation protocol.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct Evaluation {
+    /// K in the outer stratified K-fold.
+    pub outer_folds: usize,
+    /// R, how many times the outer K-fold is repeated with new shuffles.
+    pub repeats: usize,
+    /// M, the stratified folds used to cross-fit out-of-fold calibration
+    /// scores inside each outer training split.
+    pub inner_folds: usize,
+    /// Bins for binned metrics such as ECE.
+    pub bins: usize,
+}
+
+/// Where a dataset's CSV comes from.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DataSource {
+    /// An entry of the bundled catalog, by id.
+    Bundled(String),
+    /// A CSV path, relative to the manifest's folder unless absolute.
+    Path(PathBuf),
+}
+
+/// One dataset entry.
+#[derive(Debug, Clone, Serialize)]
+pub struct DatasetSpec {
+    /// The label used in tables and result paths.
+    pub name: String,
+    pub source: DataSource,
+    /// The target column; bundled datasets default to the catalog's.
+    pub target: Option<String>,
+    /// The positive class of a binary target; bundled datasets default to the
+    /// catalog's, other files to `1` or `true` when those are the labels.
+    pub positive: Option<String>,
+    /// `file:line:column` of the entry, for later error messages.
+    #[serde(skip)]
+    pub origin: String,
+}
+
+/// One model family entry.
+#[derive(Debug, Clone, Serialize)]
+pub struct FamilySpec {
+    /// The label used in tables and result paths.
+    pub name: String,
+    /// The registry kind, e.g. `logistic`.
+    pub kind: String,
+    /// Checked parameters with defaults filled in.
+    pub params: Params,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawManifest {
+    name: Spanned<String>,
+    seed: Option<Spanned<u64>>,
+    calibrators: Option<Vec<Spanned<String>>>,
+    metrics: Option<Vec<Spanned<String>>>,
+    evaluation: Option<RawEvaluation>,
+    #[serde(default, rename = "dataset")]
+    datasets: Vec<RawDataset>,
+    #[serde(default, rename = "family")]
+    families: Vec<RawFamily>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawEvaluation {
+    outer_folds: Option<Spanned<usize>>,
+    repeats: Option<Spanned<usize>>,
+    inner_folds: Option<Spanned<usize>>,
+    bins: Option<Spanned<usize>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawDataset {
+    name: Spanned<String>,
+    bundled: Option<Spanned<String>>,
+    path: Option<Spanned<String>>,
+    target: Option<Spanned<String>>,
+    positive: Option<Spanned<toml::Value>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawFamily {
+    name: Spanned<String>,
+    kind: Option<Spanned<String>>,
+    params: Option<BTreeMap<Spanned<String>, Spanned<toml::Value>>>,
+}
+
+/// Default protocol: 5 outer folds, 1 repeat, 5 inner folds, 15 bins.
+pub const DEFAULT_EVALUATION: Evaluation = Evaluation {
+    outer_folds: 5,
+    repeats: 1,
+    inner_folds: 5,
+    bins: 15,
+};
+
+/// Reads and checks a manifest file.
+pub fn load(path: &Path) -> Result<Experiment> {
+    let bytes = std::fs::read(path).map_err(|e| {
+        Error::Manifest(format!(
+            "{}: cannot read the manifest: {e}; check the path",
+            path.display()
+        ))
+    })?;
+    let text = String::from_utf8(bytes.clone()).map_err(|_| {
+        Error::Manifest(format!(
+            "{}: the manifest is not UTF-8 text; save it as UTF-8",
+            path.display()
+        ))
+    })?;
+    let source = ManifestSource {
+        path: path.to_path_buf(),
+        sha256: hex_sha256(&bytes),
+        text,
+    };
+    parse(source)
+}
+
+/// Hex SHA-256 of some bytes.
+pub fn hex_sha256(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// Checks a manifest's text; `source.path` is used in messages and to
+/// resolve relative paths.
+pub fn parse(source: ManifestSource) -> Result<Experiment> {
+    let at = Locator {
+        file: source.path.display().to_string(),
+        text: &source.text,
+    };
+    let raw: RawManifest = toml::from_str(&source.text).map_err(|e| {
+        let msg = e.message().trim().replace('\n', " ");
+        match e.span() {
+            Some(span) => at.error(span.start, &msg),
+            None => Error::Manifest(format!("{}: {msg}", at.file)),
+        }
+    })?;
+
+    let name = raw.name.get_ref().clone();
+    check_label(&at, &raw.name, "experiment name")?;
+
+    let evaluation = evaluation(&at, raw.evaluation)?;
+    let methods = methods(&at, raw.calibrators)?;
+    let metrics = metric_names(&at, raw.metrics)?;
+
+    if raw.datasets.is_empty() {
+        return Err(Error::Manifest(format!(
+            "{}: no datasets; add a [[dataset]] table with `name` and `bundled` or `path`",
+            at.file
+        )));
+    }
+    if raw.families.is_empty() {
+        return Err(Error::Manifest(format!(
+            "{}: no model families; add a [[family]] table with `name` and `kind` (known kinds: {})",
+            at.file,
+            learner::known_kinds()
+        )));
+    }
+
+    let mut datasets = Vec::new();
+    for d in raw.datasets {
+        check_label(&at, &d.name, "dataset name")?;
+        if let Some(prev) = datasets
+            .iter()
+            .find(|p: &&DatasetSpec| p.name == *d.name.get_ref())
+        {
+            return Err(at.error(
+                d.name.span().start,
+                &format!(
+                    "duplicate dataset name `{}` (first used at {}); give each dataset a unique name",
+                    d.name.get_ref(),
+                    prev.origin
+                ),
+            ));
+        }
+        let source = match (&d.bundled, &d.path) {
+            (Some(b), None) => DataSource::Bundled(b.get_ref().clone()),
+            (None, Some(p)) => DataSource::Path(PathBuf::from(p.get_ref())),
+            (Some(b), Some(_)) => {
+                return Err(at.error(
+                    b.span().start,
+                    "a dataset takes either `bundled` or `path`, not both; keep one",
+                ))
+            }
+            (None, None) => {
+                return Err(at.error(
+                    d.name.span().start,
+                    &format!(
+                        "dataset `{}` needs `bundled = \"<catalog id>\"` or `path = \"<file.csv>\"`",
+                        d.name.get_ref()
+                    ),
+                ))
+            }
+        };
+        if let (DataSource::Path(_), None) = (&source, &d.target) {
+            return Err(at.error(
+                d.name.span().start,
+                &format!(
+                    "dataset `{}` reads a file, so it needs `target = \"<column>\"`",
+                    d.name.get_ref()
+                ),
+            ));
+        }
+        let positive = match &d.positive {
+            None => None,
+            Some(v) => Some(match v.get_ref() {
+                toml::Value::String(s) => s.clone(),
+                toml::Value::Integer(i) => i.to_string(),
+                toml::Value::Boolean(b) => b.to_string(),
+                other => {
+                    return Err(at.error(
+                        v.span().start,
+                        &format!(
+                            "`positive` must be a label (string, integer or boolean), found {}",
+                            other.type_str()
+                        ),
+                    ))
+                }
+            }),
+        };
+        datasets.push(DatasetSpec {
+            name: d.name.get_ref().clone(),
+            source,
+            target: d.target.map(|t| t.into_inner()),
+            positive,
+            origin: at.position(d.name.span().start),
+        });
+    }
+
+    let mut families: Vec<FamilySpec> = Vec::new();
+    let mut family_origins: Vec<String> = Vec::new();
+    for f in raw.families {
+        check_label(&at, &f.name, "family name")?;
+        if let Some(i) = families.iter().position(|p| p.name == *f.name.get_ref()) {
+            return Err(at.error(
+                f.name.span().start,
+                &format!(
+                    "duplicate family name `{}` (first used at {}); give each family a unique name",
+                    f.name.get_ref(),
+                    family_origins[i]
+                ),
+            ));
+        }
+        let (kind, kind_at) = match &f.kind {
+            Some(k) => (k.get_ref().clone(), k.span().start),
+            None => (f.name.get_ref().clone(), f.name.span().start),
+        };
+        let Some(family) = learner::find(&kind) else {
+            return Err(at.error(
+                kind_at,
+                &format!(
+                    "unknown family kind `{kind}`; known kinds: {} (`candor families` describes them)",
+                    learner::known_kinds()
+                ),
+            ));
+        };
+        let mut values = Params::defaults(family.params);
+        for (key, value) in f.params.unwrap_or_default() {
+            let Some(spec) = family.params.iter().find(|s| s.name == key.get_ref()) else {
+                let allowed: Vec<&str> = family.params.iter().map(|s| s.name).collect();
+                return Err(at.error(
+                    key.span().start,
+                    &format!(
+                        "unknown parameter `{}` for family kind `{kind}`; allowed: {}",
+                        key.get_ref(),
+                        allowed.join(", ")
+                    ),
+                ));
+            };
+            let checked = params::check(spec, value.get_ref())
+                .map_err(|msg| at.error(value.span().start, &msg))?;
+            values.0.insert(spec.name.to_string(), checked);
+        }
+        family_origins.push(at.position(f.name.span().start));
+        families.push(FamilySpec {
+            name: f.name.get_ref().clone(),
+            kind,
+            params: values,
+        });
+    }
+
+    Ok(Experiment {
+        name,
+        seed: raw.seed.map(|s| s.into_inner()).unwrap_or(0),
+        evaluation,
+        datasets,
+        families,
+        methods,
+        metrics,
+        source,
+    })
+}
+
+fn evaluation(at: &Locator, raw: Option<RawEvaluation>) -> Result<Evaluation> {
+    let d = DEFAULT_EVALUATION;
+    let Some(raw) = raw else { return Ok(d) };
+    let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| {
+        match v {
+            None => Ok(default),
+            Some(s) if (min..=max).contains(s.get_ref()) => Ok(*s.get_ref()),
+            Some(s) => Err(at.error(
+                s.span().start,
+                &format!(
+                    "`{key}` = {} is out of range; use an integer from {min} to {max}",
+                    s.get_ref()
+                ),
+            )),
+        }
+    };
+    Ok(Evaluation {
+        outer_folds: get(raw.outer_folds, d.outer_folds, 2, 100, "outer_folds")?,
+        repeats: get(raw.repeats, d.repeats, 1, 100, "repeats")?,
+        inner_folds: get(raw.inner_folds, d.inner_folds, 2, 100, "inner_folds")?,
+        bins: get(raw.bins, d.bins, 1, 1000, "bins")?,
+    })
+}
+
+/// Checks a list of registry names for unknown and duplicate entries.
+fn checked_names(
+    at: &Locator,
+    list: Vec<Spanned<String>>,
+    what: &str,
+    known: impl Fn(&str) -> bool,
+    known_list: &str,
+) -> Result<Vec<String>> {
+    let mut out: Vec<String> = Vec::new();
+    for item in list {
+        let name = item.get_ref();
+        if !known(name) {
+            return Err(at.error(
+                item.span().start,
+                &format!("unknown {what} `{name}`; known: {known_list}"),
+            ));
+        }
+        if out.contains(name) {
+            return Err(at.error(
+                item.span().start,
+                &format!("{what} `{name}` is listed twice; list each once"),
+            ));
+        }
+        out.push(name.clone());
+    }
+    Ok(out)
+}
+
+fn methods(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String>> {
+    let all = || calibrate::METHODS.iter().map(|m| m.name.to_string()).collect();
+    let Some(list) = raw else { return Ok(all()) };
+    let mut names = checked_names(
+        at,
+        list,
+        "calibration method",
+        |n| calibrate::find(n).is_some(),
+        &calibrate::known_methods(),
+    )?;
+    // The raw row is what every method is compared against, so it is always
+    // computed and always first.
+    names.retain(|n| n != calibrate::NONE);
+    names.insert(0, calibrate::NONE.to_string());
+    Ok(names)
+}
+
+fn metric_names(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String>> {
+    let Some(list) = raw else {
+        return Ok(metrics::METRICS.iter().map(|m| m.name.to_string()).collect());
+    };
+    if list.is_empty() {
+        return Err(Error::Manifest(format!(
+            "{}: `metrics` is empty; list at least one of: {}",
+            at.file,
+            metrics::known_metrics()
+        )));
+    }
+    checked_names(
+        at,
+        list,
+        "metric",
+        |n| metrics::find(n).is_some(),
+        &metrics::known_metrics(),
+    )
+}
+
+/// Names become folder names and table keys, so keep them portable.
+fn check_label(at: &Locator, name: &Spanned<String>, what: &str) -> Result<()> {
+    let s = name.get_ref();
+    let ok = !s.is_empty()
+        && s.len() <= 64
+        && s.chars()
+            .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-' || c == '.')
+        && !s.starts_with('.');
+    if ok {
+        Ok(())
+    } else {
+        Err(at.error(
+            name.span().start,
+            &format!(
+                "{what} `{s}` is not allowed; use 1 to 64 letters, digits, `_`, `-` or `.`, not starting with `.`"
+            ),
+        ))
+    }
+}
+
+/// Turns byte offsets into `file:line:column`.
+struct Locator<'a> {
+    file: String,
+    text: &'a str,
+}
+
+impl Locator<'_> {
+    fn position(&self, offset: usize) -> String {
+        let before = &self.text[..offset.min(self.text.len())];
+        let line = before.matches('\n').count() + 1;
+        let col = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        format!("{}:{line}:{col}", self.file)
+    }
+
+    fn error(&self, offset: usize, msg: &str) -> Error {
+        Error::Manifest(format!("{}: {msg}", self.position(offset)))
+    }
+}

@@ -1,0 +1,206 @@
+//! Turning table columns into a numeric matrix, fitted on training rows only.
+//!
+//! Missing numbers take the training median, missing categories the training
+//! mode; categories become one-hot columns (a category unseen in training
+//! encodes as all zeros); scale-sensitive families also get each column
+//! centred and scaled by the training mean and standard deviation. Columns
+//! that are constant on the training rows are left out, since they carry no
+//! information there and would divide by zero when scaled.
+
+use crate::data::{ColumnData, Table, MISSING_CODE};
+use crate::math::median;
+use ndarray::Array2;
+
+/// One output column: where it comes from and how it is shifted and scaled.
+#[derive(Debug, Clone, PartialEq)]
+enum Source {
+    Numeric { column: usize, fill: f64 },
+    Indicator { column: usize, code: u32, fill: u32 },
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct Output {
+    source: Source,
+    shift: f64,
+    scale: f64,
+}
+
+/// A preprocessing fitted on one set of training rows.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Preprocessor {
+    outputs: Vec<Output>,
+}
+
+impl Output {
+    fn raw(&self, table: &Table, row: usize) -> f64 {
+        match self.source {
+            Source::Numeric { column, fill } => match &table.columns[column].data {
+                ColumnData::Numeric(v) if !v[row].is_nan() => v[row],
+                _ => fill,
+            },
+            Source::Indicator { column, code, fill } => match &table.columns[column].data {
+                ColumnData::Categorical { codes, .. } => {
+                    let c = if codes[row] == MISSING_CODE {
+                        fill
+                    } else {
+                        codes[row]
+                    };
+                    f64::from(u8::from(c == code))
+                }
+                ColumnData::Numeric(_) => 0.0,
+            },
+        }
+    }
+}
+
+impl Preprocessor {
+    /// Learns imputation values, categories and (if `standardise`) scaling
+    /// from `rows` of `table`, and nothing else.
+    pub fn fit(table: &Table, rows: &[usize], standardise: bool) -> Preprocessor {
+        let mut sources = Vec::new();
+        for (c, column) in table.columns.iter().enumerate() {
+            match &column.data {
+                ColumnData::Numeric(v) => {
+                    let present: Vec<f64> =
+                        rows.iter().map(|&r| v[r]).filter(|x| !x.is_nan()).collect();
+                    if !present.is_empty() {
+                        sources.push(Source::Numeric {
+                            column: c,
+                            fill: median(&present),
+                        });
+                    }
+                }
+                ColumnData::Categorical { codes, levels } => {
+                    let mut counts = vec![0usize; levels.len()];
+                    for &r in rows {
+                        if codes[r] != MISSING_CODE {
+                            counts[codes[r] as usize] += 1;
+                        }
+                    }
+                    // Mode; the first (alphabetically lowest) level wins ties.
+                    let Some(fill) = (0..counts.len())
+                        .filter(|&i| counts[i] > 0)
+                        .max_by(|&a, &b| counts[a].cmp(&counts[b]).then(b.cmp(&a)))
+                    else {
+                        continue;
+                    };
+                    for (code, &n) in counts.iter().enumerate() {
+                        if n > 0 {
+                            sources.push(Source::Indicator {
+                                column: c,
+                                code: code as u32,
+                                fill: fill as u32,
+                            });
+                        }
+                    }
+                }
+            }
+        }
+        let mut outputs = Vec::with_capacity(sources.len());
+        for source in sources {
+            let mut out = Output {
+                source,
+                shift: 0.0,
+                scale: 1.0,
+            };
+            let n = rows.len() as f64;
+            let mean = rows.iter().map(|&r| out.raw(table, r)).sum::<f64>() / n;
+            let var = rows
+                .iter()
+                .map(|&r| (out.raw(table, r) - mean).powi(2))
+                .sum::<f64>()
+                / n;
+            if var <= 1e-24 * (1.0 + mean * mean) {
+                continue;
+            }
+            if standardise {
+                out.shift = mean;
+                out.scale = var.sqrt();
+            }
+            outputs.push(out);
+        }
+        Preprocessor { outputs }
+    }
+
+    /// Number of output columns.
+    pub fn width(&self) -> usize {
+        self.outputs.len()
+    }
+
+    /// Encodes `rows` of `table` with what was learned in `fit`.
+    pub fn transform(&self, table: &Table, rows: &[usize]) -> Array2<f64> {
+        let mut x = Array2::zeros((rows.len(), self.outputs.len()));
+        for (i, &r) in rows.iter().enumerate() {
+            for (j, out) in self.outputs.iter().enumerate() {
+                x[[i, j]] = (out.raw(table, r) - out.shift) / out.scale;
+            }
+        }
+        x
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::data::parse_csv;
+
+    const CSV: &str = "\
+num,colour,y
+1,red,a
+,blue,b
+3,,a
+100,red,b
+5,green,a
+";
+
+    fn table() -> Table {
+        parse_csv(CSV.as_bytes(), "t.csv", "y", Some("b")).unwrap()
+    }
+
+    #[test]
+    fn imputes_from_training_rows_only() {
+        let t = table();
+        // Training rows 0..3: numeric median of {1, 3} is 2; mode of
+        // {red, blue} is a tie, broken towards "blue" (alphabetically first).
+        let p = Preprocessor::fit(&t, &[0, 1, 2], false);
+        let x = p.transform(&t, &[1, 2]);
+        // Columns: num, colour=blue, colour=red (green unseen in training).
+        assert_eq!(p.width(), 3);
+        assert_eq!(x.row(0).to_vec(), vec![2.0, 1.0, 0.0]);
+        assert_eq!(x.row(1).to_vec(), vec![3.0, 1.0, 0.0]);
+        // The test row with an unseen category encodes as all zeros.
+        let unseen = p.transform(&t, &[4]);
+        assert_eq!(unseen.row(0).to_vec(), vec![5.0, 0.0, 0.0]);
+    }
+
+    #[test]
+    fn a_test_row_cannot_move_the_fitted_values() {
+        let t = table();
+        let a = Preprocessor::fit(&t, &[0, 1, 2], true);
+        let mut t2 = t.clone();
+        if let ColumnData::Numeric(v) = &mut t2.columns[0].data {
+            v[3] = 1e9; // row 3 is not a training row
+        }
+        assert_eq!(a, Preprocessor::fit(&t2, &[0, 1, 2], true));
+    }
+
+    #[test]
+    fn standardised_training_columns_have_mean_zero_and_unit_variance() {
+        let t = table();
+        let rows = [0, 1, 2, 3, 4];
+        let x = Preprocessor::fit(&t, &rows, true).transform(&t, &rows);
+        for col in x.columns() {
+            let mean = col.sum() / 5.0;
+            let var = col.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / 5.0;
+            assert!(mean.abs() < 1e-12 && (var - 1.0).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn columns_constant_on_the_training_rows_are_left_out() {
+        let t = table();
+        // Rows 0 and 3 are both "red" and the numbers differ.
+        let p = Preprocessor::fit(&t, &[0, 3], true);
+        assert_eq!(p.width(), 1);
+    }
+}

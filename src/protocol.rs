@@ -1,0 +1,152 @@
+//! One cell of the experiment: a family on one outer fold of one dataset.
+//!
+//! Inside the outer training split, M stratified inner folds give an
+//! out-of-fold score for every training row; every calibration method is
+//! fitted on those scores; the family is then fitted once on the whole
+//! training split and scores the outer test fold, which each fitted method
+//! maps to probabilities before the metrics are computed. Preprocessing, the
+//! family and the calibrators only ever see training rows.
+
+use crate::calibrate::Calibrator;
+use crate::data::Table;
+use crate::error::{Error, Result};
+use crate::folds;
+use crate::learner::{Learner, Scores};
+use crate::metrics::{Metric, MetricOptions};
+use crate::preprocess::Preprocessor;
+use crate::rng::derive_seed;
+use ndarray::{Array2, Axis};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// The rows and seeds of one cell.
+pub struct CellPlan<'a> {
+    pub table: &'a Table,
+    /// Outer training rows (indices into the table).
+    pub train: &'a [usize],
+    /// Outer test rows.
+    pub test: &'a [usize],
+    pub inner_folds: usize,
+    /// Seeds the inner fold assignment; shared by every family on this
+    /// outer fold so their comparisons are paired.
+    pub inner_seed: u64,
+    /// Seeds the family's own randomness.
+    pub model_seed: u64,
+}
+
+/// What one calibration method achieved on the test fold.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct MethodResult {
+    pub method: String,
+    /// How the method handled the classes, e.g. `binary` or
+    /// `one-vs-rest, renormalised`.
+    pub strategy: String,
+    /// Metric values by name; empty if the method failed.
+    pub metrics: BTreeMap<String, f64>,
+    /// Why the method could not be fitted in this cell, if it could not.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error: Option<String>,
+}
+
+/// Runs a cell. An error means the family itself could not be trained or
+/// scored; a calibration method that fails is recorded in its own result.
+pub fn run_cell(
+    plan: &CellPlan<'_>,
+    learner: &dyn Learner,
+    methods: &[(String, Box<dyn Calibrator>)],
+    metrics: &[&Metric],
+    options: &MetricOptions,
+) -> Result<Vec<MethodResult>> {
+    let table = plan.table;
+    let k = table.n_classes();
+    let y_train: Vec<usize> = plan.train.iter().map(|&r| table.labels[r]).collect();
+    let y_test: Vec<usize> = plan.test.iter().map(|&r| table.labels[r]).collect();
+
+    // Out-of-fold scores for every training row.
+    let inner = folds::stratified(&y_train, k, plan.inner_folds, plan.inner_seed);
+    let mut oof: Option<Scores> = None;
+    for m in 0..plan.inner_folds {
+        let (fit_pos, val_pos) = folds::split(&inner, m);
+        let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
+        let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
+        let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
+        let scores = fit_and_score(table, &fit_rows, &val_rows, learner, k, seed)?;
+        let all = oof.get_or_insert_with(|| Scores {
+            proba: Array2::zeros((plan.train.len(), scores.proba.ncols())),
+            native: Array2::zeros((plan.train.len(), scores.native.ncols())),
+        });
+        for (j, &i) in val_pos.iter().enumerate() {
+            all.proba.row_mut(i).assign(&scores.proba.row(j));
+            all.native.row_mut(i).assign(&scores.native.row(j));
+        }
+    }
+    let oof = oof.ok_or_else(|| Error::Fit("no inner folds".into()))?;
+
+    let test = fit_and_score(table, plan.train, plan.test, learner, k, plan.model_seed)?;
+
+    let results = methods
+        .iter()
+        .map(|(name, method)| {
+            let strategy = method.strategy(k).to_string();
+            match method.fit(&oof, &y_train, k) {
+                Ok(fitted) => {
+                    let p = fitted.apply(&test);
+                    MethodResult {
+                        method: name.clone(),
+                        strategy,
+                        metrics: metrics
+                            .iter()
+                            .map(|m| (m.name.to_string(), (m.compute)(p.view(), &y_test, options)))
+                            .collect(),
+                        error: None,
+                    }
+                }
+                Err(e) => MethodResult {
+                    method: name.clone(),
+                    strategy,
+                    metrics: BTreeMap::new(),
+                    error: Some(e.to_string()),
+                },
+            }
+        })
+        .collect();
+    Ok(results)
+}
+
+/// Preprocesses on `fit_rows`, trains, and scores `score_rows`.
+fn fit_and_score(
+    table: &Table,
+    fit_rows: &[usize],
+    score_rows: &[usize],
+    learner: &dyn Learner,
+    n_classes: usize,
+    seed: u64,
+) -> Result<Scores> {
+    let prep = Preprocessor::fit(table, fit_rows, learner.wants_standardised());
+    if prep.width() == 0 {
+        return Err(Error::Fit(
+            "every feature is constant on this training split; the dataset needs varying columns"
+                .into(),
+        ));
+    }
+    let x_fit = prep.transform(table, fit_rows);
+    let y_fit: Vec<usize> = fit_rows.iter().map(|&r| table.labels[r]).collect();
+    let model = learner.fit(x_fit.view(), &y_fit, n_classes, seed)?;
+    let scores = model.predict(prep.transform(table, score_rows).view());
+    let finite = scores.proba.iter().all(|p| p.is_finite())
+        && scores
+            .native
+            .iter()
+            .all(|s| !s.is_nan() && *s != f64::INFINITY);
+    let sums_to_one = scores
+        .proba
+        .sum_axis(Axis(1))
+        .iter()
+        .all(|s| (s - 1.0).abs() < 1e-6);
+    if !finite || !sums_to_one {
+        return Err(Error::Fit(
+            "the family produced non-finite or unnormalised probabilities; try stronger regularisation".into(),
+        ));
+    }
+    Ok(scores)
+}

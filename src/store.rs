@@ -1,0 +1,107 @@
+//! The results folder: per-cell records written atomically as they finish,
+//! so a killed run loses nothing and a rerun picks up where it stopped.
+//!
+//! Layout under the results folder:
+//! - `cells/<dataset>/<family>/r<repeat>-f<fold>.json`: one record per cell,
+//!   each written to a temporary file and renamed into place;
+//! - `records.jsonl`, `summary.csv` and `run.json`: written (atomically)
+//!   once every cell is done.
+
+use crate::error::{Error, Result};
+use crate::protocol::MethodResult;
+use serde::{Deserialize, Serialize};
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+/// Everything known about one finished cell.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CellRecord {
+    pub dataset: String,
+    pub family: String,
+    pub repeat: usize,
+    pub fold: usize,
+    /// Hash of every setting that can change this cell's numbers; a stored
+    /// record is reused only while it matches.
+    pub fingerprint: String,
+    pub n_train: usize,
+    pub n_test: usize,
+    pub n_classes: usize,
+    /// One result per calibration method, in manifest order.
+    #[serde(default)]
+    pub results: Vec<MethodResult>,
+    /// Why the family could not be trained in this cell, if it could not.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error: Option<String>,
+}
+
+/// Writes a file so that readers see either the old content or the new,
+/// never a partial one: write a temporary sibling, flush it to disk, rename.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
+    let dir = path.parent().unwrap_or(Path::new("."));
+    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, "create the folder", &e))?;
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let write = || -> std::io::Result<()> {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path)
+    };
+    write().map_err(|e| {
+        let _ = std::fs::remove_file(&tmp);
+        Error::io(path, "write", &e)
+    })
+}
+
+/// The results folder of one experiment.
+pub struct Store {
+    pub dir: PathBuf,
+}
+
+impl Store {
+    /// Opens (creating if needed) a results folder and checks that it can be
+    /// written, before any work is done.
+    pub fn open(dir: &Path) -> Result<Store> {
+        let fail = |e: std::io::Error| {
+            Error::Io(format!(
+                "{}: cannot write results there: {e}; choose another folder with --out",
+                dir.display()
+            ))
+        };
+        std::fs::create_dir_all(dir).map_err(fail)?;
+        let probe = dir.join(format!(".write-probe.{}", std::process::id()));
+        std::fs::write(&probe, b"").map_err(fail)?;
+        std::fs::remove_file(&probe).map_err(fail)?;
+        Ok(Store {
+            dir: dir.to_path_buf(),
+        })
+    }
+
+    /// Where a cell's record lives.
+    pub fn cell_path(&self, dataset: &str, family: &str, repeat: usize, fold: usize) -> PathBuf {
+        self.dir
+            .join("cells")
+            .join(dataset)
+            .join(family)
+            .join(format!("r{repeat}-f{fold}.json"))
+    }
+
+    /// A stored record that can be reused: present, readable, matching the
+    /// fingerprint and successful. Failed cells are retried.
+    pub fn reusable(&self, path: &Path, fingerprint: &str) -> Option<CellRecord> {
+        let text = std::fs::read_to_string(path).ok()?;
+        let record: CellRecord = serde_json::from_str(&text).ok()?;
+        (record.fingerprint == fingerprint && record.error.is_none()).then_some(record)
+    }
+
+    /// Stores a finished cell.
+    pub fn save(&self, path: &Path, record: &CellRecord) -> Result<()> {
+        let mut text = serde_json::to_string_pretty(record)
+            .map_err(|e| Error::Io(format!("{}: cannot encode: {e}", path.display())))?;
+        text.push('\n');
+        write_atomic(path, text.as_bytes())
+    }
+}
