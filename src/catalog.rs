@@ -124,7 +124,8 @@ mod tests {
         assert_eq!(cat.entries.len(), sums.lines().count());
         for e in &cat.entries {
             assert!(
-                sums.lines().any(|l| l == format!("{}  {}", e.sha256, e.file)),
+                sums.lines()
+                    .any(|l| l == format!("{}  {}", e.sha256, e.file)),
                 "{} disagrees with SHA256SUMS",
                 e.id
             );

@@ -20,7 +20,10 @@ pub enum ColumnData {
     /// Numbers; missing values are NaN.
     Numeric(Vec<f64>),
     /// Category codes into `levels` (sorted); missing is [`MISSING_CODE`].
-    Categorical { codes: Vec<u32>, levels: Vec<String> },
+    Categorical {
+        codes: Vec<u32>,
+        levels: Vec<String>,
+    },
 }
 
 /// A named feature column.
@@ -109,7 +112,12 @@ pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) 
                 ))
             })?;
             let target = spec.target.clone().unwrap_or_default();
-            (bytes, path.display().to_string(), target, spec.positive.clone())
+            (
+                bytes,
+                path.display().to_string(),
+                target,
+                spec.positive.clone(),
+            )
         }
     };
     let mut table = parse_csv(&bytes, &file, &target, positive.as_deref()).map_err(in_entry)?;
@@ -243,7 +251,10 @@ fn sort_labels(labels: &mut [String]) {
     let numeric: Option<Vec<f64>> = labels.iter().map(|l| l.parse::<f64>().ok()).collect();
     if numeric.is_some() {
         labels.sort_by(|a, b| {
-            let (x, y) = (a.parse::<f64>().unwrap_or(0.0), b.parse::<f64>().unwrap_or(0.0));
+            let (x, y) = (
+                a.parse::<f64>().unwrap_or(0.0),
+                b.parse::<f64>().unwrap_or(0.0),
+            );
             x.total_cmp(&y).then_with(|| a.cmp(b))
         });
     } else {

@@ -48,7 +48,15 @@ mod tests {
     fn every_fold_gets_its_share_of_every_class() {
         // 3 classes of 53, 17 and 9 rows over 4 folds.
         let labels: Vec<usize> = (0..79)
-            .map(|i| if i < 53 { 0 } else if i < 70 { 1 } else { 2 })
+            .map(|i| {
+                if i < 53 {
+                    0
+                } else if i < 70 {
+                    1
+                } else {
+                    2
+                }
+            })
             .collect();
         let a = stratified(&labels, 3, 4, 11);
         let mut sizes = [0usize; 4];
@@ -56,7 +64,10 @@ mod tests {
             sizes[f] = a.iter().filter(|&&x| x == f).count();
             for (class, total) in [(0, 53usize), (1, 17), (2, 9)] {
                 let n = (0..79).filter(|&i| a[i] == f && labels[i] == class).count();
-                assert!(n == total / 4 || n == total.div_ceil(4), "fold {f} class {class}: {n}");
+                assert!(
+                    n == total / 4 || n == total.div_ceil(4),
+                    "fold {f} class {class}: {n}"
+                );
             }
         }
         assert!(sizes.iter().max().unwrap() - sizes.iter().min().unwrap() <= 1);

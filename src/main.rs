@@ -192,7 +192,8 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
                     }
                 }
                 ListWhat::Datasets => {
-                    let cat = catalog::Catalog::locate(datasets.as_deref(), std::path::Path::new("."))?;
+                    let cat =
+                        catalog::Catalog::locate(datasets.as_deref(), std::path::Path::new("."))?;
                     for e in &cat.entries {
                         let positive = e
                             .positive

@@ -240,15 +240,13 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
                     "a dataset takes either `bundled` or `path`, not both; keep one",
                 ))
             }
-            (None, None) => {
-                return Err(at.error(
-                    d.name.span().start,
-                    &format!(
-                        "dataset `{}` needs `bundled = \"<catalog id>\"` or `path = \"<file.csv>\"`",
-                        d.name.get_ref()
-                    ),
-                ))
-            }
+            (None, None) => return Err(at.error(
+                d.name.span().start,
+                &format!(
+                    "dataset `{}` needs `bundled = \"<catalog id>\"` or `path = \"<file.csv>\"`",
+                    d.name.get_ref()
+                ),
+            )),
         };
         if let (DataSource::Path(_), None) = (&source, &d.target) {
             return Err(at.error(
@@ -307,7 +305,7 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
             return Err(at.error(
                 kind_at,
                 &format!(
-                    "unknown family kind `{kind}`; known kinds: {} (`candor families` describes them)",
+                    "unknown family kind `{kind}`; known kinds: {} (`candor list families` describes them)",
                     learner::known_kinds()
                 ),
             ));
@@ -352,18 +350,17 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
 fn evaluation(at: &Locator, raw: Option<RawEvaluation>) -> Result<Evaluation> {
     let d = DEFAULT_EVALUATION;
     let Some(raw) = raw else { return Ok(d) };
-    let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| {
-        match v {
-            None => Ok(default),
-            Some(s) if (min..=max).contains(s.get_ref()) => Ok(*s.get_ref()),
-            Some(s) => Err(at.error(
-                s.span().start,
-                &format!(
-                    "`{key}` = {} is out of range; use an integer from {min} to {max}",
-                    s.get_ref()
-                ),
-            )),
-        }
+    let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| match v
+    {
+        None => Ok(default),
+        Some(s) if (min..=max).contains(s.get_ref()) => Ok(*s.get_ref()),
+        Some(s) => Err(at.error(
+            s.span().start,
+            &format!(
+                "`{key}` = {} is out of range; use an integer from {min} to {max}",
+                s.get_ref()
+            ),
+        )),
     };
     Ok(Evaluation {
         outer_folds: get(raw.outer_folds, d.outer_folds, 2, 100, "outer_folds")?,
@@ -402,7 +399,12 @@ fn checked_names(
 }
 
 fn methods(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String>> {
-    let all = || calibrate::METHODS.iter().map(|m| m.name.to_string()).collect();
+    let all = || {
+        calibrate::METHODS
+            .iter()
+            .map(|m| m.name.to_string())
+            .collect()
+    };
     let Some(list) = raw else { return Ok(all()) };
     let mut names = checked_names(
         at,
@@ -420,7 +422,10 @@ fn methods(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String
 
 fn metric_names(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String>> {
     let Some(list) = raw else {
-        return Ok(metrics::METRICS.iter().map(|m| m.name.to_string()).collect());
+        return Ok(metrics::METRICS
+            .iter()
+            .map(|m| m.name.to_string())
+            .collect());
     };
     if list.is_empty() {
         return Err(Error::Manifest(format!(

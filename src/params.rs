@@ -3,7 +3,7 @@
 //! Each family lists its parameters once, with type, default, range and a
 //! one-line explanation. The manifest checks user values against this list,
 //! so a typo or a wrong type is caught at load time with the allowed names
-//! shown, and `candor families` can print the same list as documentation.
+//! shown, and `candor list families` can print the same list as documentation.
 
 use serde::Serialize;
 use std::collections::BTreeMap;

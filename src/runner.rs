@@ -128,7 +128,11 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
         .iter()
         .filter_map(|m| calibrate::find(m).map(|method| (m.clone(), (method.build)())))
         .collect();
-    let metric_fns: Vec<&Metric> = exp.metrics.iter().filter_map(|m| metrics::find(m)).collect();
+    let metric_fns: Vec<&Metric> = exp
+        .metrics
+        .iter()
+        .filter_map(|m| metrics::find(m))
+        .collect();
     let options = MetricOptions { bins: eval.bins };
 
     // Outer folds depend on the dataset and repeat only, so every family is
@@ -263,7 +267,10 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
 
     let mut failures = Vec::new();
     for r in &records {
-        let at = format!("{}/{} repeat {} fold {}", r.dataset, r.family, r.repeat, r.fold);
+        let at = format!(
+            "{}/{} repeat {} fold {}",
+            r.dataset, r.family, r.repeat, r.fold
+        );
         if let Some(e) = &r.error {
             failures.push(format!("{at}: {e}"));
         }
@@ -333,7 +340,10 @@ fn write_outputs(
         jsonl.push('\n');
     }
     write_atomic(&store.dir.join("records.jsonl"), jsonl.as_bytes())?;
-    write_atomic(&store.dir.join("summary.csv"), Csv.render(summary).as_bytes())?;
+    write_atomic(
+        &store.dir.join("summary.csv"),
+        Csv.render(summary).as_bytes(),
+    )?;
     let info = RunInfo {
         experiment: &exp.name,
         candor_version: crate::VERSION,

@@ -60,7 +60,7 @@ pub trait Calibration: Send {
 pub struct Method {
     /// The name used in manifests and tables.
     pub name: &'static str,
-    /// One line for `candor methods`.
+    /// One line for `candor list methods`.
     pub about: &'static str,
     /// Builds the method.
     pub build: fn() -> Box<dyn Calibrator>,
@@ -95,7 +95,11 @@ pub fn find(name: &str) -> Option<&'static Method> {
 
 /// The known method names, for error messages.
 pub fn known_methods() -> String {
-    METHODS.iter().map(|m| m.name).collect::<Vec<_>>().join(", ")
+    METHODS
+        .iter()
+        .map(|m| m.name)
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 struct Identity;

@@ -140,7 +140,11 @@ mod tests {
         // tests/test_calibration.py, computed there with a Python port of
         // LibSVM's C++ implementation of this algorithm.
         let m = PlattMap::fit(&[5.0, -4.0, 1.0], &[true, false, false]);
-        assert!((m.a - -0.202_613_543_911_878_55).abs() < 1e-9, "A = {}", m.a);
+        assert!(
+            (m.a - -0.202_613_543_911_878_55).abs() < 1e-9,
+            "A = {}",
+            m.a
+        );
         assert!((m.b - 0.652_363_149_805_105_12).abs() < 1e-9, "B = {}", m.b);
         // Probabilities at the inputs, same source.
         for (f, p) in [(5.0, 0.58921), (-4.0, 0.18804), (1.0, 0.38942)] {
@@ -155,7 +159,10 @@ mod tests {
         let small = PlattMap::fit(&f, &y);
         let big: Vec<f64> = f.iter().map(|v| v * 1e8).collect();
         let large = PlattMap::fit(&big, &y);
-        assert!((large.a * 1e8 - small.a).abs() < 1e-6, "{large:?} vs {small:?}");
+        assert!(
+            (large.a * 1e8 - small.a).abs() < 1e-6,
+            "{large:?} vs {small:?}"
+        );
         assert!((large.b - small.b).abs() < 1e-6);
     }
 

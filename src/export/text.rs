@@ -57,16 +57,15 @@ impl Exporter for Text {
                             .map_or(f64::NAN, |r| r.stats[mi].mean)
                     })
                     .collect();
-                let best = values
-                    .iter()
-                    .copied()
-                    .filter(|v| v.is_finite())
-                    .fold(None, |acc: Option<f64>, v| match acc {
+                let best = values.iter().copied().filter(|v| v.is_finite()).fold(
+                    None,
+                    |acc: Option<f64>, v| match acc {
                         Some(b) if (higher_better && b >= v) || (!higher_better && b <= v) => {
                             Some(b)
                         }
                         _ => Some(v),
-                    });
+                    },
+                );
                 out.push_str(&format!("{d:dw$}  {f:fw$}"));
                 for v in values {
                     let cell = if v.is_finite() {

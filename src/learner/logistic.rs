@@ -25,7 +25,10 @@ pub const FAMILY: Family = Family {
         },
         ParamSpec {
             name: "max_iter",
-            kind: ParamKind::Int { min: 1, max: 100_000 },
+            kind: ParamKind::Int {
+                min: 1,
+                max: 100_000,
+            },
             default: ParamValue::Int(200),
             about: "iteration limit of the L-BFGS solver",
         },
@@ -74,7 +77,11 @@ impl Learner for Logistic {
                 .max_iterations(self.max_iter)
                 .fit(&data)
                 .map_err(fail)?;
-            let flip = if model.labels().pos.class == 1 { 1.0 } else { -1.0 };
+            let flip = if model.labels().pos.class == 1 {
+                1.0
+            } else {
+                -1.0
+            };
             Fitted::Binary {
                 w: model.params() * flip,
                 b: model.intercept() * flip,

@@ -54,7 +54,7 @@ pub trait Model: Send {
 pub struct Family {
     /// The `kind` used in manifests.
     pub kind: &'static str,
-    /// One line for `candor families`.
+    /// One line for `candor list families`.
     pub about: &'static str,
     /// Every parameter the family accepts.
     pub params: &'static [ParamSpec],
@@ -62,7 +62,7 @@ pub struct Family {
     pub build: fn(&Params) -> Box<dyn Learner>,
 }
 
-/// Every family candor knows, in the order `candor families` lists them.
+/// Every family candor knows, in the order `candor list families` lists them.
 pub const FAMILIES: &[&Family] = &[&logistic::FAMILY, &naive_bayes::FAMILY];
 
 /// Looks up a family kind by its manifest name.

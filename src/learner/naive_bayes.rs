@@ -12,7 +12,6 @@ use linfa::prelude::*;
 use linfa_bayes::{GaussianNb, NaiveBayes};
 use ndarray::{Array1, Array2, ArrayView2};
 
-
 pub const FAMILY: Family = Family {
     kind: "gaussian_nb",
     about: "Gaussian naive Bayes; known for over-confident, extreme probabilities",
@@ -72,11 +71,7 @@ impl Model for Fitted {
             scores.column_mut(*class).assign(&values);
         }
         if self.n_classes == 2 {
-            let z: Vec<f64> = scores
-                .rows()
-                .into_iter()
-                .map(|r| r[1] - r[0])
-                .collect();
+            let z: Vec<f64> = scores.rows().into_iter().map(|r| r[1] - r[0]).collect();
             Scores {
                 proba: binary_from_log_odds(&z),
                 native: Array1::from(z).insert_axis(ndarray::Axis(1)),

@@ -61,7 +61,10 @@ mod tests {
     use ndarray::Array2;
 
     fn binary(p: &[f64]) -> Array2<f64> {
-        Array2::from_shape_fn((p.len(), 2), |(i, j)| if j == 1 { p[i] } else { 1.0 - p[i] })
+        Array2::from_shape_fn(
+            (p.len(), 2),
+            |(i, j)| if j == 1 { p[i] } else { 1.0 - p[i] },
+        )
     }
 
     const P: [f64; 8] = [0.1, 0.1, 0.4, 0.4, 0.7, 0.7, 0.7, 0.9];

@@ -27,7 +27,7 @@ pub struct MetricOptions {
 pub struct Metric {
     /// The name used in manifests and as the column name in `summary.csv`.
     pub name: &'static str,
-    /// One line for `candor metrics` and report legends.
+    /// One line for `candor list metrics` and report legends.
     pub about: &'static str,
     /// Whether a larger value is better (accuracy) or worse (errors).
     pub higher_is_better: bool,
@@ -70,5 +70,9 @@ pub fn find(name: &str) -> Option<&'static Metric> {
 
 /// The known metric names, for error messages.
 pub fn known_metrics() -> String {
-    METRICS.iter().map(|m| m.name).collect::<Vec<_>>().join(", ")
+    METRICS
+        .iter()
+        .map(|m| m.name)
+        .collect::<Vec<_>>()
+        .join(", ")
 }

@@ -1,0 +1,168 @@
+//! No leakage: preprocessing, the family and the calibrators never see the
+//! outer test fold. An instrumented learner and calibrator record every row
+//! they are shown, identified by a unique `id` feature that passes through
+//! preprocessing unchanged.
+
+use candor::calibrate::{BinaryCalibrator, BinaryMap, Calibrator, Input, OneVsRest};
+use candor::data::{parse_csv, Table};
+use candor::error::Result;
+use candor::folds;
+use candor::learner::{Learner, Model, Scores};
+use candor::metrics::{MetricOptions, METRICS};
+use candor::protocol::{run_cell, CellPlan};
+use ndarray::{Array2, ArrayView2};
+use std::collections::BTreeSet;
+use std::sync::{Arc, Mutex};
+
+#[derive(Default)]
+struct Seen {
+    fits: Vec<BTreeSet<i64>>,
+    /// The exact training matrices, bit for bit.
+    fit_matrices: Vec<Vec<u64>>,
+    predicts: Vec<BTreeSet<i64>>,
+    calibrations: Vec<BTreeSet<i64>>,
+}
+
+type Log = Arc<Mutex<Seen>>;
+
+fn ids(x: ArrayView2<'_, f64>) -> BTreeSet<i64> {
+    x.column(0).iter().map(|v| *v as i64).collect()
+}
+
+struct Spy {
+    log: Log,
+    standardise: bool,
+}
+struct SpyModel(Log);
+
+impl Learner for Spy {
+    fn wants_standardised(&self) -> bool {
+        self.standardise
+    }
+    fn fit(&self, x: ArrayView2<'_, f64>, _: &[usize], _: usize, _: u64) -> Result<Box<dyn Model>> {
+        let mut seen = self.log.lock().unwrap();
+        seen.fits.push(ids(x));
+        seen.fit_matrices
+            .push(x.iter().map(|v| v.to_bits()).collect());
+        drop(seen);
+        Ok(Box::new(SpyModel(self.log.clone())))
+    }
+}
+impl Model for SpyModel {
+    fn predict(&self, x: ArrayView2<'_, f64>) -> Scores {
+        self.0.lock().unwrap().predicts.push(ids(x));
+        let n = x.nrows();
+        let p = Array2::from_shape_fn((n, 2), |(i, j)| {
+            let q = (x[[i, 1]] / 100.0).clamp(0.01, 0.99);
+            if j == 1 {
+                q
+            } else {
+                1.0 - q
+            }
+        });
+        // The native score is the row id, so the calibrator reveals which
+        // rows it was fitted on.
+        Scores {
+            proba: p,
+            native: x.column(0).to_owned().insert_axis(ndarray::Axis(1)),
+        }
+    }
+}
+
+struct SpyCalibrator(Log);
+struct Flat;
+
+impl BinaryMap for Flat {
+    fn apply(&self, _: f64) -> f64 {
+        0.5
+    }
+}
+
+impl BinaryCalibrator for SpyCalibrator {
+    fn input(&self) -> Input {
+        Input::Native
+    }
+    fn fit(&self, scores: &[f64], _: &[bool]) -> Result<Box<dyn BinaryMap>> {
+        let seen = scores.iter().map(|v| *v as i64).collect();
+        self.0.lock().unwrap().calibrations.push(seen);
+        Ok(Box::new(Flat))
+    }
+}
+
+fn table(test_rows_poisoned: &[usize]) -> Table {
+    let mut csv = String::from("id,x,y\n");
+    for i in 0..60 {
+        let x = if test_rows_poisoned.contains(&i) {
+            "1e12".to_string()
+        } else if i % 7 == 0 {
+            String::new() // missing: imputed with the training median
+        } else {
+            ((i * 37) % 100).to_string()
+        };
+        csv.push_str(&format!("{},{x},{}\n", 1000 + i, i % 3 == 0));
+    }
+    parse_csv(csv.as_bytes(), "spy.csv", "y", None).unwrap()
+}
+
+fn run(table: &Table, train: &[usize], test: &[usize], standardise: bool) -> Seen {
+    let log: Log = Arc::default();
+    let methods: Vec<(String, Box<dyn Calibrator>)> = vec![(
+        "spy".into(),
+        Box::new(OneVsRest(SpyCalibrator(log.clone()))),
+    )];
+    let plan = CellPlan {
+        table,
+        train,
+        test,
+        inner_folds: 4,
+        inner_seed: 5,
+        model_seed: 9,
+    };
+    let metrics: Vec<_> = METRICS.iter().collect();
+    let spy = Spy {
+        log: log.clone(),
+        standardise,
+    };
+    run_cell(&plan, &spy, &methods, &metrics, &MetricOptions { bins: 10 }).unwrap();
+    let seen = std::mem::take(&mut *log.lock().unwrap());
+    seen
+}
+
+#[test]
+fn the_test_fold_is_never_seen_in_training_or_calibration() {
+    let base = table(&[]);
+    let assignment = folds::stratified(&base.labels, 2, 5, 1);
+    let (train, test) = folds::split(&assignment, 2);
+    let train_ids: BTreeSet<i64> = train.iter().map(|&r| 1000 + r as i64).collect();
+    let test_ids: BTreeSet<i64> = test.iter().map(|&r| 1000 + r as i64).collect();
+
+    let seen = run(&base, &train, &test, false);
+    // Four inner fits on parts of the training split, then one on all of it.
+    assert_eq!(seen.fits.len(), 5);
+    for fit in &seen.fits {
+        assert!(fit.is_subset(&train_ids) && fit.is_disjoint(&test_ids));
+    }
+    assert_eq!(seen.fits[4], train_ids);
+    // The inner validation parts cover the training split exactly once.
+    let mut covered = BTreeSet::new();
+    for p in &seen.predicts[..4] {
+        assert!(p.is_disjoint(&covered));
+        covered.extend(p.iter().copied());
+    }
+    assert_eq!(covered, train_ids);
+    // Only the final model scores the test fold.
+    assert_eq!(seen.predicts[4], test_ids);
+    // The calibrator was fitted on out-of-fold scores of training rows only.
+    assert_eq!(seen.calibrations, vec![train_ids]);
+
+    // Poisoning the test rows' features changes nothing the training side
+    // sees, bit for bit: imputation and standardisation are fitted on
+    // training rows only.
+    let poisoned = table(&test);
+    for standardise in [false, true] {
+        let clean = run(&base, &train, &test, standardise);
+        let dirty = run(&poisoned, &train, &test, standardise);
+        assert_eq!(clean.fit_matrices, dirty.fit_matrices);
+        assert_eq!(clean.calibrations, dirty.calibrations);
+    }
+}
