@@ -60,8 +60,8 @@ mod tests {
             .collect();
         let a = stratified(&labels, 3, 4, 11);
         let mut sizes = [0usize; 4];
-        for f in 0..4 {
-            sizes[f] = a.iter().filter(|&&x| x == f).count();
+        for (f, size) in sizes.iter_mut().enumerate() {
+            *size = a.iter().filter(|&&x| x == f).count();
             for (class, total) in [(0, 53usize), (1, 17), (2, 9)] {
                 let n = (0..79).filter(|&i| a[i] == f && labels[i] == class).count();
                 assert!(

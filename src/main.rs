@@ -4,7 +4,8 @@ use candor::export::{Exporter, Text};
 use candor::runner::{self, RunOptions};
 use candor::{calibrate, catalog, learner, manifest, metrics};
 use clap::{Parser, Subcommand, ValueEnum};
-use std::io::IsTerminal;
+use std::fmt::Write as _;
+use std::io::{IsTerminal, Write as _};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -80,7 +81,37 @@ fn main() -> ExitCode {
     }
 }
 
+/// Writes to standard output; a closed pipe (as with `| head`) ends the
+/// program quietly instead of panicking.
+fn emit(text: &str) {
+    let mut stdout = std::io::stdout().lock();
+    if let Err(e) = stdout
+        .write_all(text.as_bytes())
+        .and_then(|()| stdout.flush())
+    {
+        if e.kind() == std::io::ErrorKind::BrokenPipe {
+            std::process::exit(0);
+        }
+        eprintln!("error: cannot write to standard output: {e}");
+        std::process::exit(1);
+    }
+}
+
+fn param_value(v: &candor::params::ParamValue) -> String {
+    match v {
+        candor::params::ParamValue::Float(x) => format!("{x:?}"),
+        candor::params::ParamValue::Int(i) => format!("{i}"),
+    }
+}
+
 fn execute(command: Command) -> candor::Result<ExitCode> {
+    let mut out = String::new();
+    let code = run_command(command, &mut out);
+    emit(&out);
+    code
+}
+
+fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> {
     match command {
         Command::Run {
             manifest: path,
@@ -112,8 +143,9 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
                 } else {
                     shown
                 };
-                print!("{}", Text { metrics: shown }.render(&report.summary));
-                println!(
+                text.push_str(&Text { metrics: shown }.render(&report.summary));
+                let _ = writeln!(
+                    text,
                     "{} cells computed, {} reused; results in {}",
                     report.computed,
                     report.reused,
@@ -126,8 +158,7 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
                 for f in &report.failures {
                     eprintln!("failed: {f}");
                 }
-                eprintln!(
-                    "error: {} cell(s) or method(s) failed; their errors are in {}/records.jsonl, the other results are complete",
+                eprintln!("error: {} cell(s) or method(s) failed; their errors are in {}/records.jsonl, the other results are complete",
                     report.failures.len(),
                     out_dir.display()
                 );
@@ -150,7 +181,8 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
                     .zip(t.class_counts())
                     .map(|(c, n)| format!("{c}: {n}"))
                     .collect();
-                println!(
+                let _ = writeln!(
+                    text,
                     "{}: {} rows, {} feature columns, classes {{{}}}",
                     t.name,
                     t.rows(),
@@ -159,7 +191,8 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
                 );
             }
             let e = exp.evaluation;
-            println!(
+            let _ = writeln!(
+                text,
                 "{}: ok; {} datasets x {} families x {} repeats x {} folds = {} cells, methods: {}",
                 path.display(),
                 exp.datasets.len(),
@@ -175,20 +208,26 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
             match what {
                 ListWhat::Families => {
                     for f in learner::FAMILIES {
-                        println!("{:12} {}", f.kind, f.about);
+                        let _ = writeln!(text, "{:12} {}", f.kind, f.about);
                         for p in f.params {
-                            println!("    {:14} default {:?}: {}", p.name, p.default, p.about);
+                            let _ = writeln!(
+                                text,
+                                "    {:14} default {}: {}",
+                                p.name,
+                                param_value(&p.default),
+                                p.about
+                            );
                         }
                     }
                 }
                 ListWhat::Methods => {
                     for m in calibrate::METHODS {
-                        println!("{:12} {}", m.name, m.about);
+                        let _ = writeln!(text, "{:12} {}", m.name, m.about);
                     }
                 }
                 ListWhat::Metrics => {
                     for m in metrics::METRICS {
-                        println!("{:12} {}", m.name, m.about);
+                        let _ = writeln!(text, "{:12} {}", m.name, m.about);
                     }
                 }
                 ListWhat::Datasets => {
@@ -200,7 +239,8 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
                             .as_deref()
                             .map(|p| format!(", positive `{p}`"))
                             .unwrap_or_default();
-                        println!(
+                        let _ = writeln!(
+                            text,
                             "{:34} {:10} {:>6} rows{positive}  {}",
                             e.id, e.task, e.rows, e.name
                         );

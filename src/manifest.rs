@@ -240,13 +240,15 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
                     "a dataset takes either `bundled` or `path`, not both; keep one",
                 ))
             }
-            (None, None) => return Err(at.error(
-                d.name.span().start,
-                &format!(
+            (None, None) => {
+                return Err(at.error(
+                    d.name.span().start,
+                    &format!(
                     "dataset `{}` needs `bundled = \"<catalog id>\"` or `path = \"<file.csv>\"`",
                     d.name.get_ref()
                 ),
-            )),
+                ))
+            }
         };
         if let (DataSource::Path(_), None) = (&source, &d.target) {
             return Err(at.error(

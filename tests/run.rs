@@ -74,7 +74,7 @@ fn results_are_byte_identical_for_one_thread_and_several() {
     let tmp = tempfile::tempdir().unwrap();
     let exp = experiment(tmp.path(), SMALL);
     let one = run(&exp, &options(tmp.path().join("one"), 1)).unwrap();
-    let four = run(&exp, &options(tmp.path().join("four"), 4)).unwrap();
+    run(&exp, &options(tmp.path().join("four"), 4)).unwrap();
     assert_eq!(one.computed, 24);
     assert!(one.failures.is_empty(), "{:?}", one.failures);
     let a = snapshot(&tmp.path().join("one"));

@@ -135,6 +135,7 @@ mod tests {
     use super::*;
 
     #[test]
+    #[allow(clippy::excessive_precision)] // the published digits, verbatim
     fn matches_the_libsvm_port_values() {
         // CV-08 in shared/reference/METHODS.md: A and B from scikit-learn's
         // tests/test_calibration.py, computed there with a Python port of
@@ -145,7 +146,7 @@ mod tests {
             "A = {}",
             m.a
         );
-        assert!((m.b - 0.652_363_149_805_105_12).abs() < 1e-9, "B = {}", m.b);
+        assert!((m.b - 0.652_363_149_800_105_12).abs() < 1e-9, "B = {}", m.b);
         // Probabilities at the inputs, same source.
         for (f, p) in [(5.0, 0.58921), (-4.0, 0.18804), (1.0, 0.38942)] {
             assert!((m.apply(f) - p).abs() < 1e-5);
