@@ -61,6 +61,13 @@ pub struct Evaluation {
     pub inner_folds: usize,
     /// Bins for binned metrics such as ECE.
     pub bins: usize,
+    /// Groups for the Hosmer-Lemeshow test.
+    pub hl_groups: usize,
+    /// Bootstrap resamples per test fold for the ECE and Brier intervals;
+    /// 0 turns the intervals off.
+    pub bootstrap: usize,
+    /// Seeds the bootstrap resamples (with each cell's identity).
+    pub bootstrap_seed: u64,
 }
 
 /// Where a dataset's CSV comes from.
@@ -121,6 +128,9 @@ struct RawEvaluation {
     repeats: Option<Spanned<usize>>,
     inner_folds: Option<Spanned<usize>>,
     bins: Option<Spanned<usize>>,
+    hl_groups: Option<Spanned<usize>>,
+    bootstrap: Option<Spanned<usize>>,
+    bootstrap_seed: Option<Spanned<u64>>,
 }
 
 #[derive(Deserialize)]
@@ -141,13 +151,20 @@ struct RawFamily {
     params: Option<BTreeMap<Spanned<String>, Spanned<toml::Value>>>,
 }
 
-/// Default protocol: 5 outer folds, 1 repeat, 5 inner folds, 15 bins.
-pub const DEFAULT_EVALUATION: Evaluation = Evaluation {
-    outer_folds: 5,
-    repeats: 1,
-    inner_folds: 5,
-    bins: 15,
-};
+/// Default protocol: 5 outer folds, 1 repeat, 5 inner folds, 15 bins,
+/// 10 Hosmer-Lemeshow groups and 1000 bootstrap resamples seeded by the
+/// experiment seed.
+pub fn default_evaluation(seed: u64) -> Evaluation {
+    Evaluation {
+        outer_folds: 5,
+        repeats: 1,
+        inner_folds: 5,
+        bins: 15,
+        hl_groups: 10,
+        bootstrap: 1000,
+        bootstrap_seed: seed,
+    }
+}
 
 /// Reads and checks a manifest file.
 pub fn load(path: &Path) -> Result<Experiment> {
@@ -197,7 +214,8 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
     let name = raw.name.get_ref().clone();
     check_label(&at, &raw.name, "experiment name")?;
 
-    let evaluation = evaluation(&at, raw.evaluation)?;
+    let seed = raw.seed.map(|s| s.into_inner()).unwrap_or(0);
+    let evaluation = evaluation(&at, raw.evaluation, seed)?;
     let methods = methods(&at, raw.calibrators)?;
     let metrics = metric_names(&at, raw.metrics)?;
 
@@ -339,7 +357,7 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
 
     Ok(Experiment {
         name,
-        seed: raw.seed.map(|s| s.into_inner()).unwrap_or(0),
+        seed,
         evaluation,
         datasets,
         families,
@@ -349,8 +367,8 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
     })
 }
 
-fn evaluation(at: &Locator, raw: Option<RawEvaluation>) -> Result<Evaluation> {
-    let d = DEFAULT_EVALUATION;
+fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Result<Evaluation> {
+    let d = default_evaluation(seed);
     let Some(raw) = raw else { return Ok(d) };
     let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| match v
     {
@@ -369,6 +387,11 @@ fn evaluation(at: &Locator, raw: Option<RawEvaluation>) -> Result<Evaluation> {
         repeats: get(raw.repeats, d.repeats, 1, 100, "repeats")?,
         inner_folds: get(raw.inner_folds, d.inner_folds, 2, 100, "inner_folds")?,
         bins: get(raw.bins, d.bins, 1, 1000, "bins")?,
+        hl_groups: get(raw.hl_groups, d.hl_groups, 3, 100, "hl_groups")?,
+        bootstrap: get(raw.bootstrap, d.bootstrap, 0, 100_000, "bootstrap")?,
+        bootstrap_seed: raw
+            .bootstrap_seed
+            .map_or(d.bootstrap_seed, |s| s.into_inner()),
     })
 }
 

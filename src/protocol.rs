@@ -12,7 +12,9 @@ use crate::data::Table;
 use crate::error::{Error, Result};
 use crate::folds;
 use crate::learner::{Learner, Scores};
-use crate::metrics::{Metric, MetricOptions};
+use crate::metrics::bootstrap::intervals;
+use crate::metrics::reliability::{reliability, ReliabilityBin};
+use crate::metrics::{Forecasts, Metric, MetricFn, MetricOptions};
 use crate::preprocess::Preprocessor;
 use crate::rng::derive_seed;
 use ndarray::{Array2, Axis};
@@ -32,6 +34,10 @@ pub struct CellPlan<'a> {
     pub inner_seed: u64,
     /// Seeds the family's own randomness.
     pub model_seed: u64,
+    /// Bootstrap resamples for the intervals (0 = none).
+    pub bootstrap: usize,
+    /// Seeds the bootstrap resamples.
+    pub bootstrap_seed: u64,
 }
 
 /// What one calibration method achieved on the test fold.
@@ -41,8 +47,15 @@ pub struct MethodResult {
     /// How the method handled the classes, e.g. `binary` or
     /// `one-vs-rest, renormalised`.
     pub strategy: String,
-    /// Metric values by name; empty if the method failed.
-    pub metrics: BTreeMap<String, f64>,
+    /// Metric values by name; empty if the method failed. Undefined values
+    /// (such as a slope on separated outcomes) are stored as null.
+    pub metrics: BTreeMap<String, Option<f64>>,
+    /// 95% bootstrap percentile intervals within the test fold, by metric.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub intervals: BTreeMap<String, [Option<f64>; 2]>,
+    /// Reliability-diagram bins on the test fold.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub reliability: Vec<ReliabilityBin>,
     /// Why the method could not be fitted in this cell, if it could not.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub error: Option<String>,
@@ -91,13 +104,38 @@ pub fn run_cell(
             match method.fit(&oof, &y_train, k) {
                 Ok(fitted) => {
                     let p = fitted.apply(&test);
+                    let fc = Forecasts::new(p.view(), &y_test);
+                    let boot: Vec<&Metric> = metrics
+                        .iter()
+                        .copied()
+                        .filter(|m| crate::metrics::BOOTSTRAPPED.contains(&m.name))
+                        .collect();
+                    let fns: Vec<MetricFn> = boot.iter().map(|m| m.compute).collect();
+                    let seed = derive_seed(plan.bootstrap_seed, &["bootstrap", name]);
+                    let bounds = if plan.bootstrap > 0 {
+                        intervals(&fc, &fns, options, plan.bootstrap, seed)
+                    } else {
+                        Vec::new()
+                    };
                     MethodResult {
                         method: name.clone(),
                         strategy,
                         metrics: metrics
                             .iter()
-                            .map(|m| (m.name.to_string(), (m.compute)(p.view(), &y_test, options)))
+                            .map(|m| {
+                                let v = (m.compute)(&fc, options);
+                                (m.name.to_string(), v.is_finite().then_some(v))
+                            })
                             .collect(),
+                        intervals: boot
+                            .iter()
+                            .zip(bounds)
+                            .map(|(m, [lo, hi])| {
+                                let finite = |v: f64| v.is_finite().then_some(v);
+                                (m.name.to_string(), [finite(lo), finite(hi)])
+                            })
+                            .collect(),
+                        reliability: reliability(&fc, options.bins),
                         error: None,
                     }
                 }
@@ -105,6 +143,8 @@ pub fn run_cell(
                     method: name.clone(),
                     strategy,
                     metrics: BTreeMap::new(),
+                    intervals: BTreeMap::new(),
+                    reliability: Vec::new(),
                     error: Some(e.to_string()),
                 },
             }

@@ -77,6 +77,9 @@ struct FingerprintInput<'a> {
     outer_folds: usize,
     inner_folds: usize,
     bins: usize,
+    hl_groups: usize,
+    bootstrap: usize,
+    bootstrap_seed: u64,
     dataset: &'a crate::manifest::DatasetSpec,
     data_sha256: &'a str,
     family: &'a crate::manifest::FamilySpec,
@@ -91,6 +94,9 @@ fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
         outer_folds: exp.evaluation.outer_folds,
         inner_folds: exp.evaluation.inner_folds,
         bins: exp.evaluation.bins,
+        hl_groups: exp.evaluation.hl_groups,
+        bootstrap: exp.evaluation.bootstrap,
+        bootstrap_seed: exp.evaluation.bootstrap_seed,
         dataset: &exp.datasets[d],
         data_sha256: &table.sha256,
         family: &exp.families[f],
@@ -133,7 +139,10 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
         .iter()
         .filter_map(|m| metrics::find(m))
         .collect();
-    let options = MetricOptions { bins: eval.bins };
+    let options = MetricOptions {
+        bins: eval.bins,
+        hl_groups: eval.hl_groups,
+    };
 
     // Outer folds depend on the dataset and repeat only, so every family is
     // evaluated on the same splits.
@@ -216,6 +225,11 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
                     inner_folds: eval.inner_folds,
                     inner_seed: derive_seed(exp.seed, &["inner", ids[0], ids[2], ids[3]]),
                     model_seed: derive_seed(exp.seed, &["model", ids[0], ids[1], ids[2], ids[3]]),
+                    bootstrap: eval.bootstrap,
+                    bootstrap_seed: derive_seed(
+                        eval.bootstrap_seed,
+                        &["bootstrap", ids[0], ids[1], ids[2], ids[3]],
+                    ),
                 };
                 let learner = learners[c.family].as_ref();
                 let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {

@@ -3,7 +3,8 @@
 use crate::manifest::Experiment;
 use crate::store::CellRecord;
 
-/// Mean and spread of one metric over the folds that succeeded.
+/// Mean and spread of one metric over the folds that succeeded; NaN when
+/// the metric was undefined in any of them.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Stat {
     pub mean: f64,
@@ -64,7 +65,12 @@ pub fn summarise(exp: &Experiment, records: &[CellRecord]) -> Summary {
                         continue;
                     }
                     for (i, name) in exp.metrics.iter().enumerate() {
-                        values[i].push(result.metrics.get(name).copied().unwrap_or(f64::NAN));
+                        // A value undefined in one fold (a slope on outcomes
+                        // the forecasts separate) makes the mean undefined:
+                        // averaging only the other folds would pick the
+                        // folds that favour the method.
+                        let v = result.metrics.get(name).copied().flatten();
+                        values[i].push(v.unwrap_or(f64::NAN));
                     }
                 }
                 rows.push(Row {

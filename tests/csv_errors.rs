@@ -164,9 +164,8 @@ fn a_class_too_rare_for_the_folds() {
     t.name = "d".into();
     let eval = Evaluation {
         outer_folds: 5,
-        repeats: 1,
         inner_folds: 5,
-        bins: 10,
+        ..candor::manifest::default_evaluation(0)
     };
     let msg = check_class_counts(&t, &eval).unwrap_err().to_string();
     assert!(

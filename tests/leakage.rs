@@ -117,13 +117,15 @@ fn run(table: &Table, train: &[usize], test: &[usize], standardise: bool) -> See
         inner_folds: 4,
         inner_seed: 5,
         model_seed: 9,
+        bootstrap: 0,
+        bootstrap_seed: 0,
     };
     let metrics: Vec<_> = METRICS.iter().collect();
     let spy = Spy {
         log: log.clone(),
         standardise,
     };
-    run_cell(&plan, &spy, &methods, &metrics, &MetricOptions { bins: 10 }).unwrap();
+    run_cell(&plan, &spy, &methods, &metrics, &MetricOptions::default()).unwrap();
     let seen = std::mem::take(&mut *log.lock().unwrap());
     seen
 }

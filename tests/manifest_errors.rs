@@ -39,7 +39,10 @@ fn a_valid_manifest_is_accepted_with_defaults() {
     };
     let exp = parse(source).unwrap();
     assert_eq!(exp.methods, vec!["none", "platt", "isotonic"]);
-    assert_eq!(exp.metrics, vec!["ece", "brier", "log_loss", "accuracy"]);
+    assert_eq!(exp.metrics.len(), candor::metrics::METRICS.len());
+    assert_eq!(exp.evaluation.hl_groups, 10);
+    assert_eq!(exp.evaluation.bootstrap, 1000);
+    assert_eq!(exp.evaluation.bootstrap_seed, 1);
     assert_eq!(exp.evaluation.outer_folds, 5);
     assert_eq!(exp.families[0].params.float("l2"), 1.0);
 }

@@ -31,7 +31,8 @@ impl Exporter for Text {
             let Some(mi) = s.metrics.iter().position(|m| m == name) else {
                 continue;
             };
-            let higher_better = metrics::find(name).is_some_and(|m| m.higher_is_better);
+            let higher_better =
+                metrics::find(name).is_some_and(|m| m.higher_is_better == Some(true));
             let what = match name.as_str() {
                 "ece" => format!("ECE ({} equal-width bins)", s.bins),
                 "brier" => "Brier score".to_string(),

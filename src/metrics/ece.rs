@@ -1,101 +1,112 @@
-//! Expected calibration error with equal-width bins (Naeini, Cooper &
-//! Hauskrecht 2015; Guo et al. 2017).
+//! Expected and maximum calibration error (Naeini, Cooper & Hauskrecht 2015;
+//! Guo et al. 2017), over equal-width or equal-mass bins, and the class-wise
+//! variant (Kull et al. 2019).
 //!
-//! Binary tasks bin the positive-class probability and compare it with the
-//! positive rate in each bin, the convention of reliability diagrams.
-//! Multiclass tasks use the top-label form: the highest probability
-//! (confidence) against whether that class was right.
-//!
-//! Bin `b` of `M` holds probabilities in `[b/M, (b+1)/M)`, with 1.0 in the last
-//! bin. Empty bins contribute nothing. Each bin's gap is weighted by its share
-//! of rows.
+//! ECE = sum over non-empty bins of (n_b / n) |mean forecast - mean outcome|;
+//! MCE is the largest of those gaps. Binary tasks bin the positive-class
+//! probability; multiclass tasks the top-label confidence (see
+//! [`super::bins::reduce`]). Binning conventions are in [`super::bins`].
 
-use super::MetricOptions;
-use ndarray::ArrayView2;
+use super::bins::{width_totals, BinTotals};
+use super::{Forecasts, MetricOptions};
 
-/// The bin of a probability among `bins` equal-width bins on [0, 1].
-pub(crate) fn width_bin(p: f64, bins: usize) -> usize {
-    ((p * bins as f64) as usize).min(bins - 1)
+fn weighted_gap(t: &[BinTotals], n: usize) -> f64 {
+    t.iter()
+        .filter(|b| b.count > 0)
+        .map(|b| (b.sum_f - b.sum_o).abs())
+        .sum::<f64>()
+        / n as f64
 }
 
-/// ECE over `opts.bins` equal-width bins.
-pub fn ece(p: ArrayView2<'_, f64>, y: &[usize], opts: &MetricOptions) -> f64 {
-    let bins = opts.bins.max(1);
-    // Per bin: count, sum of forecasts, sum of outcomes. One allocation.
-    let mut acc = vec![(0usize, 0.0f64, 0.0f64); bins];
-    let binary = p.ncols() == 2;
-    for (row, &label) in p.rows().into_iter().zip(y) {
-        let (forecast, outcome) = if binary {
-            (row[1], f64::from(u8::from(label == 1)))
-        } else {
-            let (top, conf) = argmax(row.iter().copied());
-            (conf, f64::from(u8::from(top == label)))
-        };
-        let cell = &mut acc[width_bin(forecast, bins)];
-        cell.0 += 1;
-        cell.1 += forecast;
-        cell.2 += outcome;
-    }
-    let n = y.len() as f64;
-    acc.iter()
-        .filter(|cell| cell.0 > 0)
-        .map(|&(_, sum_forecast, sum_outcome)| (sum_forecast - sum_outcome).abs() / n)
-        .sum()
+/// ECE over equal-width bins.
+pub fn ece(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
+    weighted_gap(&fc.width_totals(opts.bins), fc.n())
 }
 
-/// The index and value of the largest entry; the first wins ties, so equal
-/// probabilities resolve to the lower class index.
-pub(crate) fn argmax(values: impl Iterator<Item = f64>) -> (usize, f64) {
-    let mut best = (0, f64::NEG_INFINITY);
-    for (i, v) in values.enumerate() {
-        if v > best.1 {
-            best = (i, v);
-        }
+/// ECE over equal-mass bins (ties kept together).
+pub fn ece_mass(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
+    weighted_gap(&fc.mass_totals(opts.bins), fc.n())
+}
+
+/// MCE: the largest gap over non-empty equal-width bins.
+pub fn mce(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
+    fc.width_totals(opts.bins)
+        .iter()
+        .filter(|b| b.count > 0)
+        .map(|b| (b.mean_f() - b.mean_o()).abs())
+        .fold(0.0, f64::max)
+}
+
+/// Class-wise ECE: the equal-width ECE of every class's probability column
+/// against that class's indicator, averaged over classes. For a binary task
+/// this averages the positive and the negative column.
+pub fn ece_classwise(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
+    let k = fc.p.ncols();
+    let mut total = 0.0;
+    for c in 0..k {
+        let f = fc.p.column(c).to_vec();
+        let o: Vec<f64> = fc.y.iter().map(|&l| f64::from(u8::from(l == c))).collect();
+        total += weighted_gap(&width_totals(&f, &o, opts.bins), fc.n());
     }
-    best
+    total / k as f64
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use ndarray::Array2;
+    use crate::metrics::testing::{binary, cv01, cv07};
+    use crate::metrics::Forecasts;
 
-    fn binary(p: &[f64]) -> Array2<f64> {
-        Array2::from_shape_fn(
-            (p.len(), 2),
-            |(i, j)| if j == 1 { p[i] } else { 1.0 - p[i] },
-        )
+    fn opts(bins: usize) -> MetricOptions {
+        MetricOptions {
+            bins,
+            ..MetricOptions::default()
+        }
     }
 
-    const P: [f64; 8] = [0.1, 0.1, 0.4, 0.4, 0.7, 0.7, 0.7, 0.9];
-    const Y: [usize; 8] = [0, 0, 0, 1, 0, 1, 1, 1];
-
     #[test]
-    fn toy_forecaster_with_ten_and_two_bins() {
+    fn toy_forecaster_ece_and_mce() {
         // CV-01b and CV-01c in shared/reference/METHODS.md (toy forecaster
         // from Flach & Perello-Nieto's "Classifier Calibration" slides):
-        // ECE 0.075 with 10 equal-width bins, 0 with 2 bins.
-        let p = binary(&P);
-        assert!((ece(p.view(), &Y, &MetricOptions { bins: 10 }) - 0.075).abs() < 1e-12);
-        assert!(ece(p.view(), &Y, &MetricOptions { bins: 2 }).abs() < 1e-12);
+        // ECE 0.075 and MCE 0.10 with 10 equal-width bins; 0 with 2 bins,
+        // equal-width or equal-mass.
+        let (p, y) = cv01();
+        assert!((ece(&Forecasts::new(p.view(), &y), &opts(10)) - 0.075).abs() < 1e-12);
+        assert!((mce(&Forecasts::new(p.view(), &y), &opts(10)) - 0.10).abs() < 1e-12);
+        assert!(ece(&Forecasts::new(p.view(), &y), &opts(2)).abs() < 1e-12);
+        assert!(ece_mass(&Forecasts::new(p.view(), &y), &opts(2)).abs() < 1e-12);
     }
 
     #[test]
-    fn multiclass_uses_the_top_label() {
-        // CV-07 in shared/reference/METHODS.md: top-label ECE 0.05.
-        let p = ndarray::array![
-            [0.6, 0.3, 0.1],
-            [0.6, 0.3, 0.1],
-            [0.2, 0.5, 0.3],
-            [0.2, 0.5, 0.3]
-        ];
-        let e = ece(p.view(), &[0, 1, 1, 2], &MetricOptions { bins: 10 });
-        assert!((e - 0.05).abs() < 1e-12);
+    fn equal_mass_ece_keeps_ties_together() {
+        // CV-01d in shared/reference/METHODS.md gives 0.15 for 4 bins cut by
+        // rank with numpy.array_split, which splits the tie at 0.7 into
+        // {.7, .7} and {.7, .9}. Keeping the tie whole gives bins
+        // {.1,.1} {.4,.4} {.7,.7,.7} {.9}: gaps .1, .1, 1/30, .1 with
+        // weights 2, 2, 3, 1 (of 8), so ECE = 0.075.
+        let (p, y) = cv01();
+        assert!((ece_mass(&Forecasts::new(p.view(), &y), &opts(4)) - 0.075).abs() < 1e-12);
     }
 
     #[test]
-    fn probability_one_falls_in_the_last_bin() {
-        assert_eq!(width_bin(1.0, 15), 14);
-        assert_eq!(width_bin(0.0, 15), 0);
+    fn multiclass_top_label_and_classwise() {
+        // CV-07 in shared/reference/METHODS.md: top-label ECE 0.05,
+        // class-wise ECE mean(0.15, 0.10, 0.15) = 0.13333.
+        let (p, y) = cv07();
+        assert!((ece(&Forecasts::new(p.view(), &y), &opts(10)) - 0.05).abs() < 1e-12);
+        let cw = ece_classwise(&Forecasts::new(p.view(), &y), &opts(10));
+        assert!((cw - 0.4 / 3.0).abs() < 1e-12, "{cw}");
+    }
+
+    #[test]
+    fn a_forecast_on_an_edge_uses_the_right_closed_bin() {
+        // Two rows at exactly 0.3 with outcome rate 1/2, and two at 0.35
+        // with rate 1/2. Right-closed bins keep them apart ((0.2, 0.3] and
+        // (0.3, 0.4]): gaps 0.2 and 0.15, ECE 0.175. Left-closed bins would
+        // pool all four at mean 0.325, gap 0.175 as well, so use MCE, which
+        // tells them apart: 0.2 here against 0.175 pooled.
+        let p = binary(&[0.3, 0.3, 0.35, 0.35]);
+        let y = [0, 1, 0, 1];
+        assert!((mce(&Forecasts::new(p.view(), &y), &opts(10)) - 0.2).abs() < 1e-12);
     }
 }
