@@ -132,6 +132,13 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             for w in &report.warnings {
                 eprintln!("note: {w}");
             }
+            if report.fallbacks > 0 {
+                eprintln!(
+                    "note: {} method result(s) took a documented fallback (a single class or equal scores in a calibration fold, separated scores); see \"warnings\" in {}/records.jsonl",
+                    report.fallbacks,
+                    out_dir.display()
+                );
+            }
             if !quiet {
                 let shown: Vec<String> = ["ece", "brier"]
                     .iter()

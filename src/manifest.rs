@@ -27,6 +27,8 @@ pub struct Experiment {
     pub families: Vec<FamilySpec>,
     /// Calibration methods, always starting with `none` (the raw row).
     pub methods: Vec<String>,
+    /// Settings of the calibration methods.
+    pub calibration: crate::calibrate::Settings,
     pub metrics: Vec<String>,
     /// The file this came from, its text and hash.
     #[serde(skip)]
@@ -115,6 +117,7 @@ struct RawManifest {
     calibrators: Option<Vec<Spanned<String>>>,
     metrics: Option<Vec<Spanned<String>>>,
     evaluation: Option<RawEvaluation>,
+    calibration: Option<RawCalibration>,
     #[serde(default, rename = "dataset")]
     datasets: Vec<RawDataset>,
     #[serde(default, rename = "family")]
@@ -131,6 +134,12 @@ struct RawEvaluation {
     hl_groups: Option<Spanned<usize>>,
     bootstrap: Option<Spanned<usize>>,
     bootstrap_seed: Option<Spanned<u64>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawCalibration {
+    histogram_bins: Option<Spanned<usize>>,
 }
 
 #[derive(Deserialize)]
@@ -217,6 +226,7 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
     let seed = raw.seed.map(|s| s.into_inner()).unwrap_or(0);
     let evaluation = evaluation(&at, raw.evaluation, seed)?;
     let methods = methods(&at, raw.calibrators)?;
+    let calibration = calibration_settings(&at, raw.calibration)?;
     let metrics = metric_names(&at, raw.metrics)?;
 
     if raw.datasets.is_empty() {
@@ -362,6 +372,7 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
         datasets,
         families,
         methods,
+        calibration,
         metrics,
         source,
     })
@@ -393,6 +404,26 @@ fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Result<Eva
             .bootstrap_seed
             .map_or(d.bootstrap_seed, |s| s.into_inner()),
     })
+}
+
+fn calibration_settings(
+    at: &Locator,
+    raw: Option<RawCalibration>,
+) -> Result<crate::calibrate::Settings> {
+    let mut s = crate::calibrate::Settings::default();
+    if let Some(bins) = raw.and_then(|r| r.histogram_bins) {
+        if !(2..=1000).contains(bins.get_ref()) {
+            return Err(at.error(
+                bins.span().start,
+                &format!(
+                    "`histogram_bins` = {} is out of range; use an integer from 2 to 1000",
+                    bins.get_ref()
+                ),
+            ));
+        }
+        s.histogram_bins = *bins.get_ref();
+    }
+    Ok(s)
 }
 
 /// Checks a list of registry names for unknown and duplicate entries.

@@ -56,6 +56,13 @@ pub struct MethodResult {
     /// Reliability-diagram bins on the test fold.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub reliability: Vec<ReliabilityBin>,
+    /// Extra figures of the method on the test fold (the Venn-Abers
+    /// interval's mean bounds and widths).
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub details: BTreeMap<String, f64>,
+    /// Fallbacks the method took while fitting, in plain words.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
     /// Why the method could not be fitted in this cell, if it could not.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub error: Option<String>,
@@ -136,6 +143,8 @@ pub fn run_cell(
                             })
                             .collect(),
                         reliability: reliability(&fc, options.bins),
+                        details: fitted.details(&test),
+                        warnings: fitted.warnings(),
                         error: None,
                     }
                 }
@@ -145,6 +154,8 @@ pub fn run_cell(
                     metrics: BTreeMap::new(),
                     intervals: BTreeMap::new(),
                     reliability: Vec::new(),
+                    details: BTreeMap::new(),
+                    warnings: Vec::new(),
                     error: Some(e.to_string()),
                 },
             }

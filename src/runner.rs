@@ -45,6 +45,9 @@ pub struct RunReport {
     pub failures: Vec<String>,
     /// Notes about the data, such as ignored columns.
     pub warnings: Vec<String>,
+    /// How many (cell, method) results took a documented fallback; their
+    /// warnings are in `records.jsonl`.
+    pub fallbacks: usize,
 }
 
 /// Loads and checks every dataset of an experiment before any training, so
@@ -84,6 +87,7 @@ struct FingerprintInput<'a> {
     data_sha256: &'a str,
     family: &'a crate::manifest::FamilySpec,
     methods: &'a [String],
+    calibration: &'a crate::calibrate::Settings,
     metrics: &'a [String],
 }
 
@@ -101,6 +105,7 @@ fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
         data_sha256: &table.sha256,
         family: &exp.families[f],
         methods: &exp.methods,
+        calibration: &exp.calibration,
         metrics: &exp.metrics,
     };
     let json = serde_json::to_vec(&input).unwrap_or_default();
@@ -132,7 +137,9 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
     let methods: Vec<(String, Box<dyn Calibrator>)> = exp
         .methods
         .iter()
-        .filter_map(|m| calibrate::find(m).map(|method| (m.clone(), (method.build)())))
+        .filter_map(|m| {
+            calibrate::find(m).map(|method| (m.clone(), (method.build)(&exp.calibration)))
+        })
         .collect();
     let metric_fns: Vec<&Metric> = exp
         .metrics
@@ -294,11 +301,17 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
             }
         }
     }
+    let fallbacks = records
+        .iter()
+        .flat_map(|r| &r.results)
+        .filter(|m| !m.warnings.is_empty())
+        .count();
     Ok(RunReport {
         summary,
         computed,
         reused,
         failures,
+        fallbacks,
         warnings: tables.iter().flat_map(|t| t.warnings.clone()).collect(),
     })
 }

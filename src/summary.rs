@@ -3,8 +3,8 @@
 use crate::manifest::Experiment;
 use crate::store::CellRecord;
 
-/// Mean and spread of one metric over the folds that succeeded; NaN when
-/// the metric was undefined in any of them.
+/// Mean and spread of one metric over all folds; NaN when the family or
+/// method failed, or the metric was undefined, in any of them.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Stat {
     pub mean: f64,
@@ -57,11 +57,19 @@ pub fn summarise(exp: &Experiment, records: &[CellRecord]) -> Summary {
                 for cell in &cells {
                     let Some(result) = cell.results.iter().find(|m| &m.method == method) else {
                         failed += 1;
+                        for v in values.iter_mut() {
+                            v.push(f64::NAN);
+                        }
                         continue;
                     };
                     strategy.clone_from(&result.strategy);
                     if result.error.is_some() {
                         failed += 1;
+                        // As with undefined values below: a mean over only
+                        // the folds that worked would flatter the method.
+                        for v in values.iter_mut() {
+                            v.push(f64::NAN);
+                        }
                         continue;
                     }
                     for (i, name) in exp.metrics.iter().enumerate() {

@@ -101,7 +101,7 @@ fn the_quickstart_reproduces_the_committed_summary() {
         rows(&Path::new(env!("CARGO_MANIFEST_DIR")).join("results/quickstart/summary.csv"));
     let fresh = rows(&out.join("summary.csv"));
     assert_eq!(committed.len(), fresh.len());
-    assert_eq!(committed.len(), 1 + 6 * 2 * 3);
+    assert_eq!(committed.len(), 1 + 6 * 2 * 7);
     for (a, b) in committed.iter().zip(&fresh) {
         for (x, y) in a.iter().zip(b) {
             match (x.parse::<f64>(), y.parse::<f64>()) {

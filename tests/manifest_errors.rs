@@ -38,7 +38,9 @@ fn a_valid_manifest_is_accepted_with_defaults() {
         sha256: String::new(),
     };
     let exp = parse(source).unwrap();
-    assert_eq!(exp.methods, vec!["none", "platt", "isotonic"]);
+    let all: Vec<&str> = candor::calibrate::METHODS.iter().map(|m| m.name).collect();
+    assert_eq!(exp.methods, all);
+    assert_eq!(exp.calibration.histogram_bins, 10);
     assert_eq!(exp.metrics.len(), candor::metrics::METRICS.len());
     assert_eq!(exp.evaluation.hl_groups, 10);
     assert_eq!(exp.evaluation.bootstrap, 1000);
@@ -192,6 +194,14 @@ fn names_must_be_portable() {
     expect(
         &format!("{HEAD}[[dataset]]\nname = \"../x\"\nbundled = \"iris\"\n{FAMILY}"),
         &["bad.toml:4:8:", "dataset name `../x` is not allowed"],
+    );
+}
+
+#[test]
+fn histogram_bins_out_of_range() {
+    expect(
+        &format!("{HEAD}[calibration]\nhistogram_bins = 1\n{DATA}{FAMILY}"),
+        &["bad.toml:4:18:", "`histogram_bins` = 1 is out of range"],
     );
 }
 

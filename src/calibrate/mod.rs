@@ -7,15 +7,24 @@
 //! recorded with every result so tables never mix strategies silently. Adding
 //! a method is one new file plus one line in [`METHODS`].
 
+mod beta;
+mod histogram;
 mod isotonic;
 mod platt;
+mod temperature;
+mod venn_abers;
 
 use crate::error::Result;
 use crate::learner::Scores;
 use ndarray::Array2;
+use std::collections::BTreeMap;
 
-pub use isotonic::Isotonic;
-pub use platt::Platt;
+pub use beta::{Beta, BetaMap};
+pub use histogram::{Histogram, HistogramMap};
+pub use isotonic::{Isotonic, IsotonicMap};
+pub use platt::{Platt, PlattMap};
+pub use temperature::Temperature;
+pub use venn_abers::{VennAbers, VennAbersMap};
 
 /// Which of a family's outputs a binary method reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -39,6 +48,17 @@ pub trait BinaryCalibrator: Send + Sync {
 pub trait BinaryMap: Send {
     /// The calibrated probability of the positive class for one score.
     fn apply(&self, score: f64) -> f64;
+
+    /// A probability interval for the score, for methods that give one
+    /// (Venn-Abers).
+    fn interval(&self, _score: f64) -> Option<(f64, f64)> {
+        None
+    }
+
+    /// A fallback the fit took, in plain words.
+    fn warning(&self) -> Option<String> {
+        None
+    }
 }
 
 /// A calibration method for tasks with any number of classes.
@@ -54,6 +74,31 @@ pub trait Calibrator: Send + Sync {
 pub trait Calibration: Send {
     /// Calibrated class probabilities, rows summing to 1.
     fn apply(&self, scores: &Scores) -> Array2<f64>;
+
+    /// Fallbacks taken while fitting, in plain words, for the cell record.
+    fn warnings(&self) -> Vec<String> {
+        Vec::new()
+    }
+
+    /// Extra per-fold figures some methods report (the Venn-Abers
+    /// interval), by name.
+    fn details(&self, _scores: &Scores) -> BTreeMap<String, f64> {
+        BTreeMap::new()
+    }
+}
+
+/// Settings of the calibration methods, from the manifest's
+/// `[calibration]` table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+pub struct Settings {
+    /// Bins of histogram binning.
+    pub histogram_bins: usize,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings { histogram_bins: 10 }
+    }
 }
 
 /// A registry entry for a calibration method.
@@ -63,7 +108,7 @@ pub struct Method {
     /// One line for `candor list methods`.
     pub about: &'static str,
     /// Builds the method.
-    pub build: fn() -> Box<dyn Calibrator>,
+    pub build: fn(&Settings) -> Box<dyn Calibrator>,
 }
 
 /// The raw probabilities, unchanged: the "before" row of every comparison.
@@ -74,17 +119,41 @@ pub const METHODS: &[Method] = &[
     Method {
         name: NONE,
         about: "no calibration: the family's own probabilities",
-        build: || Box::new(Identity),
+        build: |_| Box::new(Identity),
     },
     Method {
         name: "platt",
         about: "Platt scaling, fitted with the Lin-Lin-Weng Newton method on the native score",
-        build: || Box::new(OneVsRest(Platt)),
+        build: |_| Box::new(OneVsRest(Platt)),
     },
     Method {
         name: "isotonic",
         about: "isotonic regression (PAV), linear interpolation between thresholds, clipped",
-        build: || Box::new(OneVsRest(Isotonic)),
+        build: |_| Box::new(OneVsRest(Isotonic)),
+    },
+    Method {
+        name: "histogram",
+        about: "histogram binning: positive rate of equal-frequency bins (histogram_bins)",
+        build: |s| {
+            Box::new(OneVsRest(Histogram {
+                bins: s.histogram_bins,
+            }))
+        },
+    },
+    Method {
+        name: "beta",
+        about: "beta calibration: logistic regression on ln p and -ln(1 - p), kept monotone",
+        build: |_| Box::new(OneVsRest(Beta)),
+    },
+    Method {
+        name: "temperature",
+        about: "temperature scaling: one temperature on the native scores, natively multiclass",
+        build: |_| Box::new(Temperature),
+    },
+    Method {
+        name: "venn_abers",
+        about: "inductive Venn-Abers: merged probability of the isotonic pair (p0, p1)",
+        build: |_| Box::new(OneVsRest(VennAbers)),
     },
 ];
 
@@ -123,7 +192,22 @@ impl Calibration for Identity {
 /// one map for the positive class; for more it fits one map per class
 /// (that class against the rest) and divides each row by its sum. A row whose
 /// maps all give 0 becomes uniform.
+///
+/// Two degenerate calibration sets are handled here, the same way for every
+/// method, rather than inside each: when the labels hold a single class or
+/// all scores are equal there is nothing to learn a map from, so the map is
+/// the constant observed positive rate, and a warning saying so is recorded
+/// with the result.
 pub struct OneVsRest<B>(pub B);
+
+/// The fallback map for a degenerate calibration set.
+struct Constant(f64);
+
+impl BinaryMap for Constant {
+    fn apply(&self, _: f64) -> f64 {
+        self.0
+    }
+}
 
 /// The strategy name recorded for one-vs-rest with renormalisation.
 pub const OVR_STRATEGY: &str = "one-vs-rest, renormalised";
@@ -149,15 +233,46 @@ impl<B: BinaryCalibrator + 'static> Calibrator for OneVsRest<B> {
             (0..n_classes).collect()
         };
         let mut maps = Vec::with_capacity(classes.len());
+        let mut warnings = Vec::new();
         for &k in &classes {
             let column = column_for(oof, self.0.input(), k, n_classes);
             let is_k: Vec<bool> = labels.iter().map(|&y| y == k).collect();
-            maps.push(self.0.fit(&column, &is_k)?);
+            let positives = is_k.iter().filter(|&&v| v).count();
+            let one_class = positives == 0 || positives == is_k.len();
+            let constant = column.iter().all(|&v| v == column[0]);
+            if one_class || constant {
+                let rate = positives as f64 / is_k.len().max(1) as f64;
+                let why = if one_class {
+                    "the calibration labels hold a single class"
+                } else {
+                    "all calibration scores are equal"
+                };
+                let which = if n_classes == 2 {
+                    String::new()
+                } else {
+                    format!(" for class {k}")
+                };
+                warnings.push(format!(
+                    "{why}{which}; the map is the constant positive rate {rate}"
+                ));
+                maps.push(Box::new(Constant(rate)) as Box<dyn BinaryMap>);
+                continue;
+            }
+            let map = self.0.fit(&column, &is_k)?;
+            if let Some(w) = map.warning() {
+                warnings.push(if n_classes == 2 {
+                    w
+                } else {
+                    format!("class {k}: {w}")
+                });
+            }
+            maps.push(map);
         }
         Ok(Box::new(FittedOvr {
             input: self.0.input(),
             maps,
             n_classes,
+            warnings,
         }))
     }
 }
@@ -193,6 +308,7 @@ struct FittedOvr {
     input: Input,
     maps: Vec<Box<dyn BinaryMap>>,
     n_classes: usize,
+    warnings: Vec<String>,
 }
 
 impl Calibration for FittedOvr {
@@ -216,6 +332,42 @@ impl Calibration for FittedOvr {
         }
         renormalise(&mut out);
         out
+    }
+
+    fn warnings(&self) -> Vec<String> {
+        self.warnings.clone()
+    }
+
+    /// For maps that give intervals: the mean lower and upper bound and the
+    /// mean and largest width over the rows (and classes).
+    fn details(&self, scores: &Scores) -> BTreeMap<String, f64> {
+        let classes: Vec<usize> = if self.n_classes == 2 {
+            vec![1]
+        } else {
+            (0..self.n_classes).collect()
+        };
+        let (mut low, mut high, mut widest, mut count) = (0.0, 0.0, 0.0f64, 0usize);
+        for (map, &k) in self.maps.iter().zip(&classes) {
+            for s in column_for(scores, self.input, k, self.n_classes) {
+                let Some((p0, p1)) = map.interval(s) else {
+                    return BTreeMap::new();
+                };
+                low += p0;
+                high += p1;
+                widest = widest.max(p1 - p0);
+                count += 1;
+            }
+        }
+        if count == 0 {
+            return BTreeMap::new();
+        }
+        let n = count as f64;
+        BTreeMap::from([
+            ("interval_low_mean".to_string(), low / n),
+            ("interval_high_mean".to_string(), high / n),
+            ("interval_width_mean".to_string(), (high - low) / n),
+            ("interval_width_max".to_string(), widest),
+        ])
     }
 }
 

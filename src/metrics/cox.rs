@@ -9,15 +9,15 @@
 //! of the slope model is a different number and is not reported.)
 //!
 //! Forecasts are clipped to [1e-15, 1 - 1e-15] before the logit. Both fits
-//! are maximum likelihood by Newton's method with step halving; when the
-//! outcomes are separated by the forecasts the likelihood has no maximum and
-//! the value is NaN (undefined). Multiclass tasks use the top-label
+//! are maximum likelihood ([`crate::glm::logistic`]); when the outcomes are
+//! separated by the forecasts the likelihood has no maximum and the value is
+//! NaN (undefined). Multiclass tasks use the top-label
 //! confidence and whether the top label was right.
 
 use super::Forecasts;
+use crate::glm::logistic;
 
 const CLIP: f64 = 1e-15;
-const MAX_ITER: usize = 100;
 
 fn logits(f: &[f64]) -> Vec<f64> {
     f.iter()
@@ -28,101 +28,17 @@ fn logits(f: &[f64]) -> Vec<f64> {
         .collect()
 }
 
-/// Gradient and Hessian of the log-likelihood of logit P(y) = a + b x at
-/// (a, b), in one pass with one exponential per row.
-struct Local {
-    ga: f64,
-    gb: f64,
-    haa: f64,
-    hab: f64,
-    hbb: f64,
-}
-
-fn local(x: &[f64], o: &[f64], a: f64, b: f64) -> Local {
-    let mut l = Local {
-        ga: 0.0,
-        gb: 0.0,
-        haa: 0.0,
-        hab: 0.0,
-        hbb: 0.0,
-    };
-    for (&xi, &oi) in x.iter().zip(o) {
-        let z = a + b * xi;
-        let e = (-z.abs()).exp();
-        let mu = if z >= 0.0 {
-            1.0 / (1.0 + e)
-        } else {
-            e / (1.0 + e)
-        };
-        let w = mu * (1.0 - mu);
-        let r = oi - mu;
-        l.ga += r;
-        l.gb += r * xi;
-        l.haa += w;
-        l.hab += w * xi;
-        l.hbb += w * xi * xi;
-    }
-    l
-}
-
-/// Fits (a, b) of logit P(y) = a + b x, or only a with b fixed at 1, by
-/// Newton's method. A step is halved until the slope of the log-likelihood
-/// along the step is still non-negative at its end: the log-likelihood is
-/// concave, so it then cannot have fallen, and no logarithms are needed.
-fn fit(x: &[f64], o: &[f64], fit_slope: bool) -> Option<(f64, f64)> {
-    let (mut a, mut b) = (0.0, 1.0);
-    let mut here = local(x, o, a, b);
-    for _ in 0..MAX_ITER {
-        let (da, db) = if fit_slope {
-            let det = here.haa * here.hbb - here.hab * here.hab;
-            if det <= 0.0 || !det.is_finite() {
-                return None;
-            }
-            (
-                (here.hbb * here.ga - here.hab * here.gb) / det,
-                (here.haa * here.gb - here.hab * here.ga) / det,
-            )
-        } else {
-            if here.haa <= 0.0 {
-                return None;
-            }
-            (here.ga / here.haa, 0.0)
-        };
-        let mut step = 1.0;
-        loop {
-            let (na, nb) = (a + step * da, b + step * db);
-            let next = local(x, o, na, nb);
-            let slope_along = next.ga * da + next.gb * db;
-            let scale = (here.ga * da + here.gb * db).abs();
-            if slope_along >= -1e-9 * scale {
-                a = na;
-                b = nb;
-                here = next;
-                break;
-            }
-            step /= 2.0;
-            if step < 1e-10 {
-                return None;
-            }
-        }
-        let small = |d: f64, v: f64| (step * d).abs() < 1e-10 * (1.0 + v.abs());
-        if small(da, a) && small(db, b) {
-            return (a.abs() < 1e6 && b.abs() < 1e6).then_some((a, b));
-        }
-    }
-    None
-}
-
 /// The calibration slope b (ideal 1).
 pub fn calibration_slope(fc: &Forecasts<'_>) -> f64 {
     let (f, o) = fc.reduced();
-    fit(&logits(f), o, true).map_or(f64::NAN, |(_, b)| b)
+    let x = logits(f);
+    logistic(&[&x], None, o).map_or(f64::NAN, |beta| beta[1])
 }
 
 /// The calibration intercept a with the slope fixed at 1 (ideal 0).
 pub fn calibration_intercept(fc: &Forecasts<'_>) -> f64 {
     let (f, o) = fc.reduced();
-    fit(&logits(f), o, false).map_or(f64::NAN, |(a, _)| a)
+    logistic(&[], Some(&logits(f)), o).map_or(f64::NAN, |beta| beta[0])
 }
 
 #[cfg(test)]
@@ -140,7 +56,9 @@ mod tests {
         let (p, y) = cv01();
         let fc = Forecasts::new(p.view(), &y);
         let (f, o) = fc.reduced();
-        let (a, b) = fit(&logits(f), o, true).unwrap();
+        let x = logits(f);
+        let beta = logistic(&[&x], None, o).unwrap();
+        let (a, b) = (beta[0], beta[1]);
         assert!((b - 1.34170).abs() < 5e-6, "{b}");
         assert!((a - -0.04790).abs() < 5e-6, "{a}");
         assert!(calibration_intercept(&Forecasts::new(p.view(), &y)).abs() < 1e-9);
