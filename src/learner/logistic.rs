@@ -1,16 +1,22 @@
-//! L2-regularised logistic regression, binary and multinomial, via
-//! linfa-logistic.
+//! L2-regularised logistic regression, binary and multinomial.
 //!
-//! linfa labels the *more frequent* training class as its positive class, so
-//! the binary model's log-odds are flipped when that class is not ours; the
-//! multinomial model orders its columns by class value, which we map back
-//! explicitly rather than assume.
+//! Both minimise the summed log loss plus (l2 / 2) times the squared
+//! coefficients, the intercept unpenalised (linfa-logistic's objective, with
+//! `l2` as its alpha).
+//!
+//! Binary tasks use our own Newton method: measured on spambase (3,680 x 57,
+//! release build), linfa-logistic's L-BFGS needed over 100 iterations and
+//! about 0.17 s per fit and dominated the whole run, while Newton converges
+//! to machine precision in under ten iterations of one Hessian each, about
+//! 5x faster. Multinomial tasks use linfa-logistic, whose columns follow the
+//! sorted class values; we place them by class explicitly rather than
+//! assume.
 
 use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
 use crate::error::{Error, Result};
 use crate::params::{ParamKind, ParamSpec, ParamValue};
 use linfa::prelude::*;
-use linfa_logistic::{LogisticRegression, MultiLogisticRegression};
+use linfa_logistic::MultiLogisticRegression;
 use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {
@@ -30,7 +36,7 @@ pub const FAMILY: Family = Family {
                 max: 100_000,
             },
             default: ParamValue::Int(200),
-            about: "iteration limit of the L-BFGS solver",
+            about: "iteration limit (Newton's method for binary tasks, L-BFGS for multinomial)",
         },
     ],
     build: |p| {
@@ -65,28 +71,16 @@ impl Learner for Logistic {
         n_classes: usize,
         _seed: u64,
     ) -> Result<Box<dyn Model>> {
-        let data = Dataset::new(x.to_owned(), Array1::from(y.to_vec()));
-        let fail = |e: linfa_logistic::error::Error| {
-            Error::Fit(format!(
-                "logistic regression did not fit: {e}; try a larger `l2` or `max_iter`"
-            ))
-        };
         let fitted = if n_classes == 2 {
-            let model = LogisticRegression::default()
-                .alpha(self.l2)
-                .max_iterations(self.max_iter)
-                .fit(&data)
-                .map_err(fail)?;
-            let flip = if model.labels().pos.class == 1 {
-                1.0
-            } else {
-                -1.0
-            };
-            Fitted::Binary {
-                w: model.params() * flip,
-                b: model.intercept() * flip,
-            }
+            let (w, b) = newton_binary(x, y, self.l2, self.max_iter)?;
+            Fitted::Binary { w, b }
         } else {
+            let data = Dataset::new(x.to_owned(), Array1::from(y.to_vec()));
+            let fail = |e: linfa_logistic::error::Error| {
+                Error::Fit(format!(
+                    "logistic regression did not fit: {e}; try a larger `l2` or `max_iter`"
+                ))
+            };
             let model = MultiLogisticRegression::default()
                 .alpha(self.l2)
                 .max_iterations(self.max_iter)
@@ -104,6 +98,127 @@ impl Learner for Logistic {
         };
         Ok(Box::new(fitted))
     }
+}
+
+/// The penalised objective at (w, b).
+fn objective(x: ArrayView2<'_, f64>, t: &[f64], l2: f64, w: &Array1<f64>, b: f64) -> f64 {
+    let z = x.dot(w) + b;
+    let loss: f64 = z
+        .iter()
+        .zip(t)
+        .map(|(&zi, &ti)| {
+            // ln(1 + e^z) - t z, without overflow.
+            let e = (-zi.abs()).exp();
+            zi.max(0.0) + e.ln_1p() - ti * zi
+        })
+        .sum();
+    loss + 0.5 * l2 * w.dot(w)
+}
+
+/// Newton's method with backtracking for binary L2 logistic regression.
+fn newton_binary(
+    x: ArrayView2<'_, f64>,
+    y: &[usize],
+    l2: f64,
+    max_iter: u64,
+) -> Result<(Array1<f64>, f64)> {
+    let (n, d) = x.dim();
+    let t: Vec<f64> = y.iter().map(|&v| f64::from(u8::from(v == 1))).collect();
+    let mut w = Array1::<f64>::zeros(d);
+    let mut b = 0.0;
+    let mut f = objective(x, &t, l2, &w, b);
+    for _ in 0..max_iter {
+        let z = x.dot(&w) + b;
+        let p = z.mapv(crate::math::sigmoid);
+        let r = Array1::from_iter(p.iter().zip(&t).map(|(pi, ti)| pi - ti));
+        // Gradient over (w, b), then the Hessian [X 1]' D [X 1] + l2 I_w.
+        let mut grad = Array1::zeros(d + 1);
+        grad.slice_mut(ndarray::s![..d])
+            .assign(&(x.t().dot(&r) + &w * l2));
+        grad[d] = r.sum();
+        let sqrt_w = p.mapv(|pi| (pi * (1.0 - pi)).sqrt());
+        let mut xs = Array2::zeros((n, d + 1));
+        for i in 0..n {
+            for j in 0..d {
+                xs[[i, j]] = x[[i, j]] * sqrt_w[i];
+            }
+            xs[[i, d]] = sqrt_w[i];
+        }
+        let mut h = xs.t().dot(&xs);
+        for j in 0..d {
+            h[[j, j]] += l2;
+        }
+        let step = cholesky_solve(&h, &grad).ok_or_else(|| {
+            Error::Fit(
+                "logistic regression did not fit: the Hessian is singular (classes separated with l2 = 0?); use a positive `l2`".into(),
+            )
+        })?;
+        // The Newton decrement g' H^-1 g bounds the remaining gain; stop
+        // once it is at the level of rounding in the objective.
+        let decrease = grad.dot(&step);
+        if decrease <= 1e-13 * (1.0 + f.abs()) {
+            return Ok((w, b));
+        }
+        let mut s = 1.0;
+        loop {
+            let nw = &w - &(step.slice(ndarray::s![..d]).to_owned() * s);
+            let nb = b - step[d] * s;
+            let nf = objective(x, &t, l2, &nw, nb);
+            if nf <= f - 1e-4 * s * decrease {
+                w = nw;
+                b = nb;
+                f = nf;
+                break;
+            }
+            s /= 2.0;
+            if s < 1e-10 {
+                // No progress is possible in floating point: this is the
+                // optimum to machine precision.
+                return Ok((w, b));
+            }
+        }
+    }
+    if f.is_finite() && w.iter().all(|v| v.is_finite()) {
+        Ok((w, b))
+    } else {
+        Err(Error::Fit(
+            "logistic regression did not converge; try a larger `l2` or `max_iter`".into(),
+        ))
+    }
+}
+
+/// Solves H s = g for symmetric positive-definite H by Cholesky
+/// factorisation; `None` if H is not positive definite.
+fn cholesky_solve(h: &Array2<f64>, g: &Array1<f64>) -> Option<Array1<f64>> {
+    let d = g.len();
+    let mut l = Array2::<f64>::zeros((d, d));
+    for i in 0..d {
+        for j in 0..=i {
+            let mut sum = h[[i, j]];
+            for k in 0..j {
+                sum -= l[[i, k]] * l[[j, k]];
+            }
+            if i == j {
+                if sum <= 0.0 || !sum.is_finite() {
+                    return None;
+                }
+                l[[i, i]] = sum.sqrt();
+            } else {
+                l[[i, j]] = sum / l[[j, j]];
+            }
+        }
+    }
+    let mut z = Array1::<f64>::zeros(d);
+    for i in 0..d {
+        let sum: f64 = (0..i).map(|k| l[[i, k]] * z[k]).sum();
+        z[i] = (g[i] - sum) / l[[i, i]];
+    }
+    let mut s = Array1::<f64>::zeros(d);
+    for i in (0..d).rev() {
+        let sum: f64 = (i + 1..d).map(|k| l[[k, i]] * s[k]).sum();
+        s[i] = (z[i] - sum) / l[[i, i]];
+    }
+    Some(s)
 }
 
 impl Model for Fitted {
