@@ -10,7 +10,10 @@ fn binary_logistic_matches_scikit_learn() {
     // tests/fixtures/logistic.json: scikit-learn's LogisticRegression with
     // C = 1 / l2 solved to tol 1e-12 (generator and versions recorded in the
     // file). Our Newton solver must give the same log-odds for every row.
-    let path = format!("{}/tests/fixtures/logistic.json", env!("CARGO_MANIFEST_DIR"));
+    let path = format!(
+        "{}/tests/fixtures/logistic.json",
+        env!("CARGO_MANIFEST_DIR")
+    );
     let v: Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
     let rows: Vec<Vec<f64>> = serde_json::from_value(v["x"].clone()).unwrap();
     let y: Vec<usize> = serde_json::from_value(v["y"].clone()).unwrap();
@@ -27,7 +30,10 @@ fn binary_logistic_matches_scikit_learn() {
         for (i, row) in rows.iter().enumerate() {
             let want: f64 = intercept + row.iter().zip(&coef).map(|(a, b)| a * b).sum::<f64>();
             let got = scores.native[[i, 0]];
-            assert!((got - want).abs() < 1e-6 * (1.0 + want.abs()), "l2 {l2}, row {i}: {got} vs {want}");
+            assert!(
+                (got - want).abs() < 1e-6 * (1.0 + want.abs()),
+                "l2 {l2}, row {i}: {got} vs {want}"
+            );
         }
     }
 }
