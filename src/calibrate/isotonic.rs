@@ -44,21 +44,7 @@ impl IsotonicMap {
                 _ => points.push((x, w * y, w)),
             }
         }
-        // PAV: blocks of (weighted sum, weight, number of points).
-        let mut blocks: Vec<(f64, f64, usize)> = Vec::with_capacity(points.len());
-        for &(_, sy, w) in &points {
-            blocks.push((sy, w, 1));
-            while blocks.len() > 1 {
-                let (s2, w2, n2) = blocks[blocks.len() - 1];
-                let (s1, w1, n1) = blocks[blocks.len() - 2];
-                if s1 / w1 <= s2 / w2 {
-                    break;
-                }
-                blocks.pop();
-                let last = blocks.len() - 1;
-                blocks[last] = (s1 + s2, w1 + w2, n1 + n2);
-            }
-        }
+        let blocks = pool_adjacent_violators(points.iter().map(|&(_, sy, w)| (sy, w)));
         let mut y = Vec::with_capacity(points.len());
         for &(s, w, n) in &blocks {
             y.extend(std::iter::repeat_n(s / w, n));
@@ -68,6 +54,29 @@ impl IsotonicMap {
             y,
         }
     }
+}
+
+/// Pool-adjacent-violators over points given in score order as (weighted
+/// sum of targets, weight): returns the fitted blocks as (sum, weight,
+/// number of points), each block's value being sum / weight.
+pub(crate) fn pool_adjacent_violators(
+    points: impl IntoIterator<Item = (f64, f64)>,
+) -> Vec<(f64, f64, usize)> {
+    let mut blocks: Vec<(f64, f64, usize)> = Vec::new();
+    for (sum, weight) in points {
+        blocks.push((sum, weight, 1));
+        while blocks.len() > 1 {
+            let (s2, w2, n2) = blocks[blocks.len() - 1];
+            let (s1, w1, n1) = blocks[blocks.len() - 2];
+            if s1 / w1 <= s2 / w2 {
+                break;
+            }
+            blocks.pop();
+            let last = blocks.len() - 1;
+            blocks[last] = (s1 + s2, w1 + w2, n1 + n2);
+        }
+    }
+    blocks
 }
 
 impl BinaryMap for IsotonicMap {

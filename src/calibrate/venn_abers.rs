@@ -14,6 +14,7 @@
 //! each place is computed once; the cost is O(n) per distinct place, which
 //! is fine for the calibration sets this tool sees (tens of thousands).
 
+use super::isotonic::pool_adjacent_violators;
 use super::{BinaryCalibrator, BinaryMap, Input};
 use crate::error::Result;
 use std::cell::RefCell;
@@ -71,36 +72,19 @@ impl VennAbersMap {
     /// The isotonic fit's value at the test point after adding it with
     /// `label` at `pos` (pooled into the tied point when `tied`).
     fn fitted_at(&self, pos: usize, tied: bool, label: f64) -> f64 {
-        // Pool-adjacent-violators over the points in order, the test point
-        // included; blocks are (sum, weight, number of points).
-        let mut blocks: Vec<(f64, f64, usize)> = Vec::with_capacity(self.points.len() + 1);
-        let mut push = |sum: f64, weight: f64| {
-            blocks.push((sum, weight, 1));
-            while blocks.len() > 1 {
-                let (s2, w2, n2) = blocks[blocks.len() - 1];
-                let (s1, w1, n1) = blocks[blocks.len() - 2];
-                if s1 / w1 <= s2 / w2 {
-                    break;
-                }
-                blocks.pop();
-                let last = blocks.len() - 1;
-                blocks[last] = (s1 + s2, w1 + w2, n1 + n2);
-            }
+        // The points in order with the test point added; it is point number
+        // `pos` in this sequence either way.
+        let before = self.points[..pos].iter().map(|&(_, s, w)| (s, w));
+        let (at, after) = if tied {
+            let (_, s, w) = self.points[pos];
+            ((s + label, w + 1.0), &self.points[pos + 1..])
+        } else {
+            ((label, 1.0), &self.points[pos..])
         };
-        for (i, &(_, sum, weight)) in self.points.iter().enumerate() {
-            match (i == pos, tied) {
-                (true, true) => push(sum + label, weight + 1.0),
-                (true, false) => {
-                    push(label, 1.0);
-                    push(sum, weight);
-                }
-                _ => push(sum, weight),
-            }
-        }
-        if pos == self.points.len() {
-            push(label, 1.0);
-        }
-        // The test point is point number `pos` in the sequence either way.
+        let sequence = before
+            .chain(std::iter::once(at))
+            .chain(after.iter().map(|&(_, s, w)| (s, w)));
+        let blocks = pool_adjacent_violators(sequence);
         let mut seen = 0;
         for &(sum, weight, count) in &blocks {
             seen += count;
