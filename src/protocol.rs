@@ -93,11 +93,16 @@ pub fn run_cell(
         let scores = fit_and_score(table, &fit_rows, &val_rows, learner, k, seed)?;
         let all = oof.get_or_insert_with(|| Scores {
             proba: Array2::zeros((plan.train.len(), scores.proba.ncols())),
-            native: Array2::zeros((plan.train.len(), scores.native.ncols())),
+            native: scores
+                .native
+                .as_ref()
+                .map(|s| Array2::zeros((plan.train.len(), s.ncols()))),
         });
         for (j, &i) in val_pos.iter().enumerate() {
             all.proba.row_mut(i).assign(&scores.proba.row(j));
-            all.native.row_mut(i).assign(&scores.native.row(j));
+            if let (Some(to), Some(from)) = (all.native.as_mut(), scores.native.as_ref()) {
+                to.row_mut(i).assign(&from.row(j));
+            }
         }
     }
     let oof = oof.ok_or_else(|| Error::Fit("no inner folds".into()))?;
@@ -188,6 +193,7 @@ fn fit_and_score(
         && scores
             .native
             .iter()
+            .flatten()
             .all(|s| !s.is_nan() && *s != f64::INFINITY);
     let sums_to_one = scores
         .proba

@@ -20,7 +20,7 @@ fn binary_scores(z: &[f64]) -> Scores {
     });
     Scores {
         proba,
-        native: Array2::from_shape_fn((z.len(), 1), |(i, _)| z[i]),
+        native: Some(Array2::from_shape_fn((z.len(), 1), |(i, _)| z[i])),
     }
 }
 
@@ -109,7 +109,13 @@ fn multiclass_outputs_sum_to_one_and_temperature_keeps_the_argmax() {
             let s = r.sum();
             r.mapv_inplace(|v| v / s);
         }
-        (Scores { proba, native }, y)
+        (
+            Scores {
+                proba,
+                native: Some(native),
+            },
+            y,
+        )
     };
     let (cal, y) = make(&mut rng, 400);
     let (test, _) = make(&mut rng, 300);
@@ -147,7 +153,7 @@ fn degenerate_calibration_sets_fall_back_with_a_warning() {
                 1.0 - p
             }
         }),
-        native: Array2::from_shape_fn((20, 1), |(i, _)| if i < 10 { -40.0 } else { 40.0 }),
+        native: Some(Array2::from_shape_fn((20, 1), |(i, _)| if i < 10 { -40.0 } else { 40.0 })),
     };
     let test = binary_scores(&[-1.0, 0.0, 2.0]);
     for m in calibrate::METHODS.iter().filter(|m| m.name != "none") {

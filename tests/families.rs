@@ -29,7 +29,7 @@ fn binary_logistic_matches_scikit_learn() {
         let intercept = case["intercept"].as_f64().unwrap();
         for (i, row) in rows.iter().enumerate() {
             let want: f64 = intercept + row.iter().zip(&coef).map(|(a, b)| a * b).sum::<f64>();
-            let got = scores.native[[i, 0]];
+            let got = scores.native.as_ref().unwrap()[[i, 0]];
             assert!(
                 (got - want).abs() < 1e-6 * (1.0 + want.abs()),
                 "l2 {l2}, row {i}: {got} vs {want}"

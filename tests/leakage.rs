@@ -64,7 +64,7 @@ impl Model for SpyModel {
         // rows it was fitted on.
         Scores {
             proba: p,
-            native: x.column(0).to_owned().insert_axis(ndarray::Axis(1)),
+            native: Some(x.column(0).to_owned().insert_axis(ndarray::Axis(1))),
         }
     }
 }

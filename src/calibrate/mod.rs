@@ -277,16 +277,16 @@ impl<B: BinaryCalibrator + 'static> Calibrator for OneVsRest<B> {
     }
 }
 
-/// The score column a binary method reads for class `k`.
+/// The score column a binary method reads for class `k`. Methods that read
+/// the native score get the probability from families that have none.
 fn column_for(scores: &Scores, input: Input, k: usize, n_classes: usize) -> Vec<f64> {
-    match input {
+    match (input, &scores.native) {
         // Binary tasks carry one native column: the positive class's log-odds.
-        Input::Native if n_classes == 2 => scores.native.column(0).to_vec(),
+        (Input::Native, Some(native)) if n_classes == 2 => native.column(0).to_vec(),
         // Per-class logits carry an arbitrary per-row shift, so class k's own
         // column is not comparable across rows; its log-odds against the rest
         // of the classes is, and is what a binary method expects.
-        Input::Native => scores
-            .native
+        (Input::Native, Some(native)) => native
             .rows()
             .into_iter()
             .map(|row| {
@@ -300,7 +300,7 @@ fn column_for(scores: &Scores, input: Input, k: usize, n_classes: usize) -> Vec<
                 row[k] - lse
             })
             .collect(),
-        Input::Probability => scores.proba.column(k).to_vec(),
+        (Input::Native, None) | (Input::Probability, _) => scores.proba.column(k).to_vec(),
     }
 }
 

@@ -21,13 +21,21 @@ pub struct Temperature;
 const BETA_MIN: f64 = 1e-4;
 const BETA_MAX: f64 = 1e4;
 
-/// Per-class scores as logits: binary log-odds z become (0, z).
+/// Probabilities are floored here before their logarithm is taken, for
+/// families without a native score.
+const LOG_FLOOR: f64 = 1e-12;
+
+/// Per-class scores as logits: binary log-odds z become (0, z); families
+/// without a native score give their log-probabilities (floored at 1e-12),
+/// as scikit-learn's temperature scaling does.
 fn logits(scores: &Scores, n_classes: usize) -> Array2<f64> {
-    if n_classes == 2 {
-        let z = scores.native.column(0);
-        Array2::from_shape_fn((z.len(), 2), |(i, j)| if j == 1 { z[i] } else { 0.0 })
-    } else {
-        scores.native.clone()
+    match &scores.native {
+        Some(native) if n_classes == 2 => {
+            let z = native.column(0);
+            Array2::from_shape_fn((z.len(), 2), |(i, j)| if j == 1 { z[i] } else { 0.0 })
+        }
+        Some(native) => native.clone(),
+        None => scores.proba.mapv(|p| p.max(LOG_FLOOR).ln()),
     }
 }
 
@@ -156,7 +164,7 @@ mod tests {
         let labels = [0, 1, 2, 1];
         let scores = Scores {
             proba: crate::learner::softmax_rows(&native),
-            native,
+            native: Some(native),
         };
         assert!((scores.proba[[0, 0]] - 0.78699).abs() < 1e-5);
         let (beta, bound) = fit_beta(&logits(&scores, 3), &labels);
@@ -180,7 +188,7 @@ mod tests {
         let native = ndarray::array![[-3.0], [-1.0], [2.0], [4.0]];
         let scores = Scores {
             proba: ndarray::Array2::from_elem((4, 2), 0.5),
-            native,
+            native: Some(native),
         };
         let fitted = Temperature.fit(&scores, &[0, 0, 1, 1], 2).unwrap();
         assert_eq!(fitted.warnings().len(), 1);

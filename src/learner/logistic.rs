@@ -228,14 +228,14 @@ impl Model for Fitted {
                 let z = x.dot(w) + *b;
                 Scores {
                     proba: binary_from_log_odds(z.as_slice().unwrap_or(&z.to_vec())),
-                    native: z.insert_axis(ndarray::Axis(1)),
+                    native: Some(z.insert_axis(ndarray::Axis(1))),
                 }
             }
             Fitted::Multi { w, b } => {
                 let logits = x.dot(w) + b;
                 Scores {
                     proba: softmax_rows(&logits),
-                    native: logits,
+                    native: Some(logits),
                 }
             }
         }

@@ -21,8 +21,10 @@ pub struct Scores {
     /// The family's native score, which calibrators such as Platt scaling
     /// work on: for a binary task one column holding the positive class's
     /// log-odds (or margin); for a multiclass task one column per class
-    /// (logits or log-probabilities).
-    pub native: Array2<f64>,
+    /// (logits or log-probabilities). `None` for families without one
+    /// (trees, forests, nearest neighbours), whose calibrators then read the
+    /// probabilities.
+    pub native: Option<Array2<f64>>,
 }
 
 /// A family with its parameters set, ready to be trained on any split.

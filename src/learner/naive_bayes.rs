@@ -74,14 +74,14 @@ impl Model for Fitted {
             let z: Vec<f64> = scores.rows().into_iter().map(|r| r[1] - r[0]).collect();
             Scores {
                 proba: binary_from_log_odds(&z),
-                native: Array1::from(z).insert_axis(ndarray::Axis(1)),
+                native: Some(Array1::from(z).insert_axis(ndarray::Axis(1))),
             }
         } else {
             // Log-probabilities stay finite where probabilities underflow.
             let native = log_softmax_rows(&scores);
             Scores {
                 proba: native.mapv(f64::exp),
-                native,
+                native: Some(native),
             }
         }
     }
