@@ -187,6 +187,13 @@ fn fit_and_score(
     }
     let x_fit = prep.transform(table, fit_rows);
     let y_fit: Vec<usize> = fit_rows.iter().map(|&r| table.labels[r]).collect();
+    if y_fit.iter().all(|&c| c == y_fit[0]) {
+        return Err(Error::Fit(format!(
+            "the training split holds a single class (`{}`, {} rows); no family can learn from it",
+            table.classes[y_fit[0]],
+            y_fit.len()
+        )));
+    }
     let model = learner.fit(x_fit.view(), &y_fit, n_classes, seed)?;
     let scores = model.predict(prep.transform(table, score_rows).view());
     let finite = scores.proba.iter().all(|p| p.is_finite())

@@ -153,7 +153,13 @@ fn degenerate_calibration_sets_fall_back_with_a_warning() {
                 1.0 - p
             }
         }),
-        native: Some(Array2::from_shape_fn((20, 1), |(i, _)| if i < 10 { -40.0 } else { 40.0 })),
+        native: Some(Array2::from_shape_fn((20, 1), |(i, _)| {
+            if i < 10 {
+                -40.0
+            } else {
+                40.0
+            }
+        })),
     };
     let test = binary_scores(&[-1.0, 0.0, 2.0]);
     for m in calibrate::METHODS.iter().filter(|m| m.name != "none") {

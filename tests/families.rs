@@ -37,3 +37,139 @@ fn binary_logistic_matches_scikit_learn() {
         }
     }
 }
+
+mod every_family {
+    use candor::calibrate::{self, Calibrator, Settings};
+    use candor::data::parse_csv;
+    use candor::learner::{self, FAMILIES};
+    use candor::metrics::{MetricOptions, METRICS};
+    use candor::params::Params;
+    use candor::protocol::{run_cell, CellPlan};
+    use candor::rng::SplitMix64;
+    use ndarray::Array2;
+
+    /// Noisy data with a signal in the first two columns and K classes.
+    fn data(n: usize, k: usize, seed: u64) -> (Array2<f64>, Vec<usize>) {
+        let mut rng = SplitMix64::new(seed);
+        let x = Array2::from_shape_fn((n, 5), |_| rng.unit() * 4.0 - 2.0);
+        let y = x
+            .rows()
+            .into_iter()
+            .map(|r| {
+                let s = r[0] + 0.5 * r[1] + 0.8 * (rng.unit() - 0.5);
+                (((s + 3.0) / 6.0 * k as f64).floor() as usize).min(k - 1)
+            })
+            .collect();
+        (x, y)
+    }
+
+    fn fit_predict(kind: &str, k: usize, threads: usize) -> Array2<f64> {
+        let family = learner::find(kind).unwrap();
+        let (x, y) = data(300, k, 1);
+        let (t, _) = data(80, k, 2);
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        pool.install(|| {
+            let model = (family.build)(&Params::defaults(family.params))
+                .fit(x.view(), &y, k, 42)
+                .unwrap();
+            model.predict(t.view()).proba
+        })
+    }
+
+    #[test]
+    fn same_seed_same_bits_on_any_thread_count() {
+        for family in FAMILIES {
+            for k in [2, 3] {
+                let one = fit_predict(family.kind, k, 1);
+                let four = fit_predict(family.kind, k, 4);
+                let again = fit_predict(family.kind, k, 4);
+                let bits = |a: &Array2<f64>| a.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+                assert_eq!(bits(&one), bits(&four), "{} with {k} classes", family.kind);
+                assert_eq!(bits(&four), bits(&again), "{}", family.kind);
+                for row in one.rows() {
+                    assert!(row.iter().all(|p| p.is_finite() && (0.0..=1.0).contains(p)));
+                    assert!((row.sum() - 1.0).abs() < 1e-9, "{}", family.kind);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn single_class_or_constant_training_data_is_a_cell_error() {
+        let mut csv = String::from("a,b,y\n");
+        for i in 0..40 {
+            csv.push_str(&format!(
+                "{},{},{}\n",
+                i % 7,
+                3,
+                if i < 20 { "p" } else { "q" }
+            ));
+        }
+        let table = parse_csv(csv.as_bytes(), "d.csv", "y", Some("q")).unwrap();
+        let methods: Vec<(String, Box<dyn Calibrator>)> = calibrate::METHODS
+            .iter()
+            .map(|m| (m.name.to_string(), (m.build)(&Settings::default())))
+            .collect();
+        let metrics: Vec<_> = METRICS.iter().collect();
+        let one_class: Vec<usize> = (0..20).collect();
+        let test: Vec<usize> = (20..40).collect();
+        for family in FAMILIES {
+            let learner = (family.build)(&Params::defaults(family.params));
+            let plan = CellPlan {
+                table: &table,
+                train: &one_class,
+                test: &test,
+                inner_folds: 2,
+                inner_seed: 1,
+                model_seed: 2,
+                bootstrap: 0,
+                bootstrap_seed: 0,
+            };
+            let err = run_cell(
+                &plan,
+                learner.as_ref(),
+                &methods,
+                &metrics,
+                &MetricOptions::default(),
+            )
+            .unwrap_err()
+            .to_string();
+            assert!(err.contains("single class"), "{}: {err}", family.kind);
+        }
+        // Every feature constant on the training rows.
+        let mut csv = String::from("a,b,y\n");
+        for i in 0..40 {
+            let a = if i < 30 { 1 } else { i };
+            csv.push_str(&format!("{a},{a},{}\n", if i % 2 == 0 { "p" } else { "q" }));
+        }
+        let table = parse_csv(csv.as_bytes(), "d.csv", "y", Some("q")).unwrap();
+        let train: Vec<usize> = (0..30).collect();
+        let test: Vec<usize> = (30..40).collect();
+        for family in FAMILIES {
+            let learner = (family.build)(&Params::defaults(family.params));
+            let plan = CellPlan {
+                table: &table,
+                train: &train,
+                test: &test,
+                inner_folds: 2,
+                inner_seed: 1,
+                model_seed: 2,
+                bootstrap: 0,
+                bootstrap_seed: 0,
+            };
+            let err = run_cell(
+                &plan,
+                learner.as_ref(),
+                &methods,
+                &metrics,
+                &MetricOptions::default(),
+            )
+            .unwrap_err()
+            .to_string();
+            assert!(err.contains("constant"), "{}: {err}", family.kind);
+        }
+    }
+}

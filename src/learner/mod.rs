@@ -5,8 +5,12 @@
 //! training split, and the returned [`Model`] scores new rows. Adding a family
 //! is one new file that defines a [`Family`] plus one line in [`FAMILIES`].
 
+mod adaboost;
+mod forest;
+mod knn;
 mod logistic;
 mod naive_bayes;
+mod tree;
 
 use crate::error::Result;
 use crate::params::{ParamSpec, Params};
@@ -65,7 +69,15 @@ pub struct Family {
 }
 
 /// Every family candor knows, in the order `candor list families` lists them.
-pub const FAMILIES: &[&Family] = &[&logistic::FAMILY, &naive_bayes::FAMILY];
+pub const FAMILIES: &[&Family] = &[
+    &logistic::FAMILY,
+    &naive_bayes::FAMILY,
+    &forest::TREE,
+    &forest::RANDOM_FOREST,
+    &forest::BAGGED_TREES,
+    &adaboost::FAMILY,
+    &knn::FAMILY,
+];
 
 /// Looks up a family kind by its manifest name.
 pub fn find(kind: &str) -> Option<&'static Family> {

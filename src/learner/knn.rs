@@ -1,0 +1,111 @@
+//! k-nearest neighbours: class fractions among the k closest training rows
+//! (Euclidean distance on standardised features).
+//!
+//! Why our own: measured on this machine, linfa-nn took about 3.7 s for
+//! 5,000 queries. Distances here come from one matrix product per block of
+//! queries (|a|^2 + |b|^2 - 2 a.b), and the k nearest from a linear-time
+//! selection; equal distances are broken by the lower training-row index, so
+//! the neighbours, and the probabilities, are deterministic. No native score:
+//! calibrators read the fractions.
+
+use super::{Family, Learner, Model, Scores};
+use crate::error::{Error, Result};
+use crate::params::{ParamKind, ParamSpec, ParamValue};
+use ndarray::{s, Array1, Array2, ArrayView2, Axis};
+
+pub const FAMILY: Family = Family {
+    kind: "knn",
+    about: "k-nearest neighbours on standardised features; class fractions among the k nearest",
+    params: &[ParamSpec {
+        name: "k",
+        kind: ParamKind::Int {
+            min: 1,
+            max: 10_000,
+        },
+        default: ParamValue::Int(25),
+        about: "neighbours per query",
+    }],
+    build: |p| {
+        Box::new(Knn {
+            k: p.int("k") as usize,
+        })
+    },
+};
+
+/// Queries per block of the distance matrix (bounds memory at block x n).
+const BLOCK: usize = 512;
+
+struct Knn {
+    k: usize,
+}
+
+struct Fitted {
+    x: Array2<f64>,
+    norms: Array1<f64>,
+    y: Vec<usize>,
+    k: usize,
+    n_classes: usize,
+}
+
+impl Learner for Knn {
+    fn wants_standardised(&self) -> bool {
+        true
+    }
+
+    fn fit(
+        &self,
+        x: ArrayView2<'_, f64>,
+        y: &[usize],
+        n_classes: usize,
+        _seed: u64,
+    ) -> Result<Box<dyn Model>> {
+        if y.len() < self.k {
+            return Err(Error::Fit(format!(
+                "k = {} neighbours but only {} training rows; lower `k`",
+                self.k,
+                y.len()
+            )));
+        }
+        Ok(Box::new(Fitted {
+            norms: x.map_axis(Axis(1), |r| r.dot(&r)),
+            x: x.to_owned(),
+            y: y.to_vec(),
+            k: self.k,
+            n_classes,
+        }))
+    }
+}
+
+impl Model for Fitted {
+    fn predict(&self, q: ArrayView2<'_, f64>) -> Scores {
+        let n = q.nrows();
+        let mut proba = Array2::zeros((n, self.n_classes));
+        let mut order: Vec<(f64, u32)> = Vec::with_capacity(self.y.len());
+        for start in (0..n).step_by(BLOCK) {
+            let end = (start + BLOCK).min(n);
+            let block = q.slice(s![start..end, ..]);
+            let cross = block.dot(&self.x.t());
+            for (i, row) in cross.rows().into_iter().enumerate() {
+                let qn = block.row(i).dot(&block.row(i));
+                order.clear();
+                order.extend(
+                    row.iter()
+                        .zip(&self.norms)
+                        .enumerate()
+                        .map(|(j, (&c, &nj))| (qn + nj - 2.0 * c, j as u32)),
+                );
+                let cmp = |a: &(f64, u32), b: &(f64, u32)| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1));
+                order.select_nth_unstable_by(self.k - 1, cmp);
+                let mut out = proba.row_mut(start + i);
+                for &(_, j) in &order[..self.k] {
+                    out[self.y[j as usize]] += 1.0;
+                }
+                out.mapv_inplace(|v| v / self.k as f64);
+            }
+        }
+        Scores {
+            proba,
+            native: None,
+        }
+    }
+}

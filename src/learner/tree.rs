@@ -1,0 +1,365 @@
+//! Our histogram-binned classification tree learner, shared by the decision
+//! tree, random forest, bagged trees and boosted stumps.
+//!
+//! Why our own: measured on 15,000 x 20 synthetic binary data (release
+//! build), linfa-ensemble's random forest took about 26 s for 100 trees, was
+//! not reproducible with a fixed seed and gave votes only; smartcore's forest
+//! gives labels only and its tree one-hot "probabilities". Every family here
+//! needs seeded, reproducible class frequencies, fast.
+//!
+//! Each feature is cut into at most 255 bins at training time (at the
+//! midpoints between distinct values when there are few, at quantiles
+//! otherwise); a split is a bin boundary, stored as the real threshold, so
+//! prediction compares raw values. Nodes split on the weighted Gini
+//! criterion over the features sampled for that split; leaves hold weighted
+//! class frequencies.
+
+use crate::rng::SplitMix64;
+use ndarray::{ArrayView1, ArrayView2};
+
+const MAX_BINS: usize = 255;
+
+/// Training data cut into bins, column-major.
+pub(crate) struct Binned {
+    codes: Vec<u8>,
+    /// Per feature, increasing cut values: bin b holds values in
+    /// (cuts[b - 1], cuts[b]].
+    cuts: Vec<Vec<f64>>,
+    n: usize,
+}
+
+impl Binned {
+    pub(crate) fn new(x: ArrayView2<'_, f64>) -> Binned {
+        let (n, d) = x.dim();
+        let mut codes = vec![0u8; n * d];
+        let mut cuts = Vec::with_capacity(d);
+        let mut sorted = Vec::with_capacity(n);
+        for f in 0..d {
+            sorted.clear();
+            sorted.extend(x.column(f).iter().copied());
+            sorted.sort_by(f64::total_cmp);
+            let mut distinct = sorted.clone();
+            distinct.dedup();
+            let c: Vec<f64> = if distinct.len() <= MAX_BINS {
+                distinct.windows(2).map(|w| 0.5 * (w[0] + w[1])).collect()
+            } else {
+                let mut c: Vec<f64> = (1..MAX_BINS).map(|j| sorted[j * n / MAX_BINS]).collect();
+                c.dedup();
+                // A cut at the largest value would leave its bin empty.
+                c.retain(|&v| v < sorted[n - 1]);
+                c
+            };
+            for (i, &v) in x.column(f).iter().enumerate() {
+                codes[f * n + i] = c.partition_point(|&cut| cut < v) as u8;
+            }
+            cuts.push(c);
+        }
+        Binned { codes, cuts, n }
+    }
+
+    fn d(&self) -> usize {
+        self.cuts.len()
+    }
+
+    fn code(&self, feature: usize, row: usize) -> usize {
+        usize::from(self.codes[feature * self.n + row])
+    }
+}
+
+/// How a tree grows.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Growth {
+    pub max_depth: usize,
+    pub min_samples_leaf: usize,
+    /// Features sampled, without replacement, for each split.
+    pub features_per_split: usize,
+}
+
+#[derive(Debug, Clone, Copy)]
+enum Node {
+    Split {
+        feature: u32,
+        threshold: f64,
+        left: u32,
+        right: u32,
+    },
+    /// Offset of the leaf's class frequencies in `Tree::leaves`.
+    Leaf(u32),
+}
+
+/// A fitted tree.
+#[derive(Debug, Clone)]
+pub(crate) struct Tree {
+    nodes: Vec<Node>,
+    leaves: Vec<f64>,
+    n_classes: usize,
+}
+
+impl Tree {
+    /// The class frequencies of the leaf a row falls in.
+    pub(crate) fn leaf(&self, x: ArrayView1<'_, f64>) -> &[f64] {
+        let mut i = 0;
+        loop {
+            match self.nodes[i] {
+                Node::Split {
+                    feature,
+                    threshold,
+                    left,
+                    right,
+                } => {
+                    i = if x[feature as usize] <= threshold {
+                        left as usize
+                    } else {
+                        right as usize
+                    };
+                }
+                Node::Leaf(offset) => {
+                    let o = offset as usize;
+                    return &self.leaves[o..o + self.n_classes];
+                }
+            }
+        }
+    }
+}
+
+/// Grows a tree on the rows with positive weight. `weights` are bootstrap
+/// counts or boosting weights.
+pub(crate) fn grow(
+    data: &Binned,
+    y: &[usize],
+    weights: &[f64],
+    n_classes: usize,
+    growth: Growth,
+    rng: &mut SplitMix64,
+) -> Tree {
+    let mut rows: Vec<u32> = (0..data.n as u32)
+        .filter(|&r| weights[r as usize] > 0.0)
+        .collect();
+    let mut tree = Tree {
+        nodes: Vec::new(),
+        leaves: Vec::new(),
+        n_classes,
+    };
+    let mut features: Vec<usize> = (0..data.d()).collect();
+    let mut hist = vec![0.0; MAX_BINS * n_classes];
+    let mut counts = vec![0usize; MAX_BINS];
+    // Work list of (node index, row range, depth), depth first.
+    tree.nodes.push(Node::Leaf(0));
+    let mut stack = vec![(0usize, 0usize, rows.len(), 0usize)];
+    while let Some((node, start, end, depth)) = stack.pop() {
+        let mut totals = vec![0.0; n_classes];
+        for &r in &rows[start..end] {
+            totals[y[r as usize]] += weights[r as usize];
+        }
+        let n_rows = end - start;
+        let pure = totals.iter().filter(|&&t| t > 0.0).count() <= 1;
+        let split = if pure || depth >= growth.max_depth || n_rows < 2 * growth.min_samples_leaf {
+            None
+        } else {
+            best_split(
+                data,
+                y,
+                weights,
+                &rows[start..end],
+                &totals,
+                growth,
+                rng,
+                &mut features,
+                &mut hist,
+                &mut counts,
+            )
+        };
+        match split {
+            None => {
+                let w: f64 = totals.iter().sum();
+                tree.nodes[node] = Node::Leaf(tree.leaves.len() as u32);
+                tree.leaves.extend(totals.iter().map(|t| t / w));
+            }
+            Some((feature, bin)) => {
+                let slice = &mut rows[start..end];
+                let mut mid = 0;
+                for i in 0..slice.len() {
+                    if data.code(feature, slice[i] as usize) <= bin {
+                        slice.swap(i, mid);
+                        mid += 1;
+                    }
+                }
+                let left = tree.nodes.len();
+                tree.nodes.push(Node::Leaf(0));
+                tree.nodes.push(Node::Leaf(0));
+                tree.nodes[node] = Node::Split {
+                    feature: feature as u32,
+                    threshold: data.cuts[feature][bin],
+                    left: left as u32,
+                    right: left as u32 + 1,
+                };
+                stack.push((left + 1, start + mid, end, depth + 1));
+                stack.push((left, start, start + mid, depth + 1));
+            }
+        }
+    }
+    tree
+}
+
+/// The best (feature, bin) split of a node by weighted Gini, or `None`.
+#[allow(clippy::too_many_arguments)]
+fn best_split(
+    data: &Binned,
+    y: &[usize],
+    weights: &[f64],
+    rows: &[u32],
+    totals: &[f64],
+    growth: Growth,
+    rng: &mut SplitMix64,
+    features: &mut [usize],
+    hist: &mut [f64],
+    counts: &mut [usize],
+) -> Option<(usize, usize)> {
+    let k = totals.len();
+    let total_w: f64 = totals.iter().sum();
+    let parent = totals.iter().map(|t| t * t).sum::<f64>() / total_w;
+    let m = growth.features_per_split.clamp(1, features.len());
+    // Partial Fisher-Yates: the first m entries become the sample.
+    for i in 0..m {
+        let j = i + rng.below(features.len() - i);
+        features.swap(i, j);
+    }
+    let mut best: Option<(f64, usize, usize)> = None;
+    let mut left = vec![0.0; k];
+    // Small nodes sort their few rows by bin instead of scanning every bin.
+    let mut few: Vec<(usize, usize, f64)> = Vec::new();
+    let consider = |b: usize,
+                    left: &[f64],
+                    left_count: usize,
+                    best: &mut Option<(f64, usize, usize)>,
+                    f: usize| {
+        let right_count = rows.len() - left_count;
+        if left_count < growth.min_samples_leaf || right_count < growth.min_samples_leaf {
+            return;
+        }
+        let wl: f64 = left.iter().sum();
+        let wr = total_w - wl;
+        if wl <= 0.0 || wr <= 0.0 {
+            return;
+        }
+        let sl = left.iter().map(|v| v * v).sum::<f64>() / wl;
+        let sr = totals
+            .iter()
+            .zip(left)
+            .map(|(t, l)| (t - l) * (t - l))
+            .sum::<f64>()
+            / wr;
+        let gain = sl + sr - parent;
+        if gain > 1e-12 * total_w && best.is_none_or(|(g, _, _)| gain > g) {
+            *best = Some((gain, f, b));
+        }
+    };
+    for &f in features[..m].iter() {
+        let bins = data.cuts[f].len() + 1;
+        if bins < 2 {
+            continue;
+        }
+        left.fill(0.0);
+        let mut left_count = 0;
+        if rows.len() * 4 < bins {
+            few.clear();
+            few.extend(rows.iter().map(|&r| {
+                let r = r as usize;
+                (data.code(f, r), y[r], weights[r])
+            }));
+            few.sort_unstable_by_key(|e| e.0);
+            for i in 0..few.len() - 1 {
+                let (b, c, w) = few[i];
+                left[c] += w;
+                left_count += 1;
+                if few[i + 1].0 != b {
+                    consider(b, &left, left_count, &mut best, f);
+                }
+            }
+            continue;
+        }
+        hist[..bins * k].fill(0.0);
+        counts[..bins].fill(0);
+        for &r in rows {
+            let r = r as usize;
+            let b = data.code(f, r);
+            hist[b * k + y[r]] += weights[r];
+            counts[b] += 1;
+        }
+        for b in 0..bins - 1 {
+            if counts[b] == 0 {
+                continue;
+            }
+            for c in 0..k {
+                left[c] += hist[b * k + c];
+            }
+            left_count += counts[b];
+            if rows.len() - left_count < growth.min_samples_leaf {
+                break;
+            }
+            consider(b, &left, left_count, &mut best, f);
+        }
+    }
+    best.map(|(_, f, b)| (f, b))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use ndarray::array;
+
+    #[test]
+    fn a_deep_tree_separates_separable_data() {
+        let x = array![
+            [0.0, 5.0],
+            [1.0, 4.0],
+            [2.0, 3.0],
+            [3.0, 2.0],
+            [4.0, 1.0],
+            [5.0, 0.0]
+        ];
+        let y = [0, 0, 0, 1, 1, 1];
+        let data = Binned::new(x.view());
+        let growth = Growth {
+            max_depth: 10,
+            min_samples_leaf: 1,
+            features_per_split: 2,
+        };
+        let tree = grow(&data, &y, &[1.0; 6], 2, growth, &mut SplitMix64::new(1));
+        for (row, &label) in x.rows().into_iter().zip(&y) {
+            assert_eq!(tree.leaf(row)[label], 1.0);
+        }
+        // A value between the training values goes by the midpoint cut.
+        assert_eq!(tree.leaf(array![2.4, 2.6].view())[0], 1.0);
+        assert_eq!(tree.leaf(array![2.6, 2.4].view())[1], 1.0);
+    }
+
+    #[test]
+    fn weights_change_leaf_frequencies() {
+        let x = array![[0.0], [0.0], [1.0], [1.0]];
+        let y = [0, 1, 0, 1];
+        let data = Binned::new(x.view());
+        let growth = Growth {
+            max_depth: 0,
+            min_samples_leaf: 1,
+            features_per_split: 1,
+        };
+        let tree = grow(
+            &data,
+            &y,
+            &[3.0, 1.0, 0.0, 0.0],
+            2,
+            growth,
+            &mut SplitMix64::new(1),
+        );
+        assert_eq!(tree.leaf(array![0.0].view()), &[0.75, 0.25]);
+    }
+
+    #[test]
+    fn many_distinct_values_are_cut_at_quantiles() {
+        let x = ndarray::Array2::from_shape_fn((1000, 1), |(i, _)| (i * 7 % 1000) as f64);
+        let data = Binned::new(x.view());
+        assert!(data.cuts[0].len() < MAX_BINS);
+        assert!(data.cuts[0].windows(2).all(|w| w[0] < w[1]));
+    }
+}
