@@ -173,3 +173,39 @@ mod every_family {
         }
     }
 }
+
+#[test]
+fn linear_svm_matches_scikit_learn() {
+    // tests/fixtures/logistic.json, "svm": scikit-learn's LinearSVC (squared
+    // hinge, bias as a constant feature, liblinear's dual coordinate
+    // descent) solved to tol 1e-10. Both stop on a projected-gradient
+    // tolerance, so margins agree to about 1e-3, not to rounding.
+    let path = format!(
+        "{}/tests/fixtures/logistic.json",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let v: Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    let rows: Vec<Vec<f64>> = serde_json::from_value(v["x"].clone()).unwrap();
+    let y: Vec<usize> = serde_json::from_value(v["y"].clone()).unwrap();
+    let x = Array2::from_shape_fn((rows.len(), rows[0].len()), |(i, j)| rows[i][j]);
+    let family = learner::find("linear_svm").unwrap();
+    for case in v["svm"].as_array().unwrap() {
+        let c = case["c"].as_f64().unwrap();
+        let mut params = Params::defaults(family.params);
+        params.0.insert("c".into(), ParamValue::Float(c));
+        params.0.insert("tol".into(), ParamValue::Float(1e-8));
+        params.0.insert("max_iter".into(), ParamValue::Int(100_000));
+        let model = (family.build)(&params).fit(x.view(), &y, 2, 0).unwrap();
+        let margins = model.predict(x.view()).native.unwrap();
+        let coef: Vec<f64> = serde_json::from_value(case["coef"].clone()).unwrap();
+        let intercept = case["intercept"].as_f64().unwrap();
+        for (i, row) in rows.iter().enumerate() {
+            let want: f64 = intercept + row.iter().zip(&coef).map(|(a, b)| a * b).sum::<f64>();
+            let got = margins[[i, 0]];
+            assert!(
+                (got - want).abs() < 1e-3 * (1.0 + want.abs()),
+                "C {c}, row {i}: {got} vs {want}"
+            );
+        }
+    }
+}

@@ -10,6 +10,7 @@ mod forest;
 mod knn;
 mod logistic;
 mod naive_bayes;
+mod svm;
 mod tree;
 
 use crate::error::Result;
@@ -77,6 +78,7 @@ pub const FAMILIES: &[&Family] = &[
     &forest::BAGGED_TREES,
     &adaboost::FAMILY,
     &knn::FAMILY,
+    &svm::FAMILY,
 ];
 
 /// Looks up a family kind by its manifest name.
