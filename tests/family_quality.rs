@@ -2,7 +2,7 @@
 //!
 //! Reference values: the scikit-learn reference grid in shared/peer
 //! (peer_grid.py, efficient style, `--outer 5 --inner 5 --bins 15 --seed 0
-//! --models logreg,nbayes,tree,forest,adaboost`) run on this machine on
+//! --models logreg,nbayes,tree,forest,adaboost,svm,knn`) run on this machine on
 //! 2026-12-02 with Python 3.11.7, scikit-learn 1.9.1, numpy 2.4.6 and scipy
 //! 1.17.1: the mean and standard deviation over the 5 outer folds of the raw
 //! forecasts' ROC AUC. Fold splits differ between the tools, so the check is
@@ -49,6 +49,8 @@ const PEER: &[(&str, &str, &str, f64, f64)] = &[
     ("spambase", "decision_tree", "tree", 0.9423, 0.0040),
     ("spambase", "random_forest", "forest", 0.9873, 0.0060),
     ("spambase", "boosted_stumps", "adaboost", 0.9812, 0.0049),
+    ("spambase", "linear_svm", "svm", 0.9713, 0.0031),
+    ("spambase", "knn", "knn", 0.9592, 0.0063),
 ];
 
 #[test]
@@ -78,6 +80,10 @@ name = "decision_tree"
 name = "random_forest"
 [[family]]
 name = "boosted_stumps"
+[[family]]
+name = "linear_svm"
+[[family]]
+name = "knn"
 "#;
     let exp = manifest::parse(ManifestSource {
         path: "quality.toml".into(),
