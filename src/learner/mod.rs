@@ -7,6 +7,7 @@
 
 mod adaboost;
 mod forest;
+mod gradient_boosting;
 mod knn;
 mod logistic;
 mod naive_bayes;
@@ -77,6 +78,7 @@ pub const FAMILIES: &[&Family] = &[
     &forest::RANDOM_FOREST,
     &forest::BAGGED_TREES,
     &adaboost::FAMILY,
+    &gradient_boosting::FAMILY,
     &knn::FAMILY,
     &svm::FAMILY,
 ];

@@ -17,7 +17,7 @@
 use crate::rng::SplitMix64;
 use ndarray::{ArrayView1, ArrayView2};
 
-const MAX_BINS: usize = 255;
+pub(crate) const MAX_BINS: usize = 255;
 
 /// Training data cut into bins, column-major.
 pub(crate) struct Binned {
@@ -57,11 +57,25 @@ impl Binned {
         Binned { codes, cuts, n }
     }
 
-    fn d(&self) -> usize {
+    pub(crate) fn d(&self) -> usize {
         self.cuts.len()
     }
 
-    fn code(&self, feature: usize, row: usize) -> usize {
+    pub(crate) fn n(&self) -> usize {
+        self.n
+    }
+
+    /// Bins of a feature (cuts + 1).
+    pub(crate) fn bins(&self, feature: usize) -> usize {
+        self.cuts[feature].len() + 1
+    }
+
+    /// The cut value closing bin `bin` of a feature.
+    pub(crate) fn cut(&self, feature: usize, bin: usize) -> f64 {
+        self.cuts[feature][bin]
+    }
+
+    pub(crate) fn code(&self, feature: usize, row: usize) -> usize {
         usize::from(self.codes[feature * self.n + row])
     }
 }
