@@ -10,6 +10,7 @@ mod forest;
 mod gradient_boosting;
 mod knn;
 mod logistic;
+mod mlp;
 mod naive_bayes;
 mod svm;
 mod tree;
@@ -81,6 +82,7 @@ pub const FAMILIES: &[&Family] = &[
     &gradient_boosting::FAMILY,
     &knn::FAMILY,
     &svm::FAMILY,
+    &mlp::FAMILY,
 ];
 
 /// Looks up a family kind by its manifest name.
