@@ -26,7 +26,7 @@ for i in $(seq "$RUNS"); do
     echo "$e - $s" | bc >> "$tmp/candor.times"
     s=$(date +%s.%N)
     .peer-venv/bin/python "$PEER/peer_grid.py" datasets/spambase.csv datasets/magic_gamma.csv \
-        --models logreg,nbayes,tree,forest,adaboost,knn,svm --style efficient --jobs 2 --outer 5 --inner 5 --bins 15 \
+        --models logreg,nbayes,tree,forest,adaboost,knn,svm,gboost,mlp --style efficient --jobs 2 --outer 5 --inner 5 --bins 15 \
         --seed 0 --out "$tmp/peer.json" >/dev/null
     e=$(date +%s.%N)
     echo "$e - $s" | bc >> "$tmp/peer.times"

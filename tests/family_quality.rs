@@ -2,7 +2,7 @@
 //!
 //! Reference values: the scikit-learn reference grid in shared/peer
 //! (peer_grid.py, efficient style, `--outer 5 --inner 5 --bins 15 --seed 0
-//! --models logreg,nbayes,tree,forest,adaboost,svm,knn`) run on this machine on
+//! --models logreg,nbayes,tree,forest,adaboost,svm,knn,gboost,mlp`) run on this machine on
 //! 2026-12-02 with Python 3.11.7, scikit-learn 1.9.1, numpy 2.4.6 and scipy
 //! 1.17.1: the mean and standard deviation over the 5 outer folds of the raw
 //! forecasts' ROC AUC. Fold splits differ between the tools, so the check is
@@ -51,6 +51,7 @@ const PEER: &[(&str, &str, &str, f64, f64)] = &[
     ("spambase", "boosted_stumps", "adaboost", 0.9812, 0.0049),
     ("spambase", "linear_svm", "svm", 0.9713, 0.0031),
     ("spambase", "knn", "knn", 0.9592, 0.0063),
+    ("spambase", "gradient_boosting", "gboost", 0.9894, 0.0038),
 ];
 
 #[test]
@@ -84,6 +85,8 @@ name = "boosted_stumps"
 name = "linear_svm"
 [[family]]
 name = "knn"
+[[family]]
+name = "gradient_boosting"
 "#;
     let exp = manifest::parse(ManifestSource {
         path: "quality.toml".into(),
