@@ -52,6 +52,7 @@ const PEER: &[(&str, &str, &str, f64, f64)] = &[
     ("spambase", "linear_svm", "svm", 0.9713, 0.0031),
     ("spambase", "knn", "knn", 0.9592, 0.0063),
     ("spambase", "gradient_boosting", "gboost", 0.9894, 0.0038),
+    ("spambase", "mlp", "mlp", 0.9818, 0.0040),
 ];
 
 #[test]
@@ -87,6 +88,8 @@ name = "linear_svm"
 name = "knn"
 [[family]]
 name = "gradient_boosting"
+[[family]]
+name = "mlp"
 "#;
     let exp = manifest::parse(ManifestSource {
         path: "quality.toml".into(),
