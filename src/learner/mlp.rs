@@ -33,7 +33,10 @@ pub const FAMILY: Family = Family {
         },
         ParamSpec {
             name: "learning_rate",
-            kind: ParamKind::Float { min: 1e-6, max: 1.0 },
+            kind: ParamKind::Float {
+                min: 1e-6,
+                max: 1.0,
+            },
             default: ParamValue::Float(1e-3),
             about: "Adam step size",
         },
@@ -45,13 +48,19 @@ pub const FAMILY: Family = Family {
         },
         ParamSpec {
             name: "batch",
-            kind: ParamKind::Int { min: 1, max: 100_000 },
+            kind: ParamKind::Int {
+                min: 1,
+                max: 100_000,
+            },
             default: ParamValue::Int(200),
             about: "rows per mini-batch",
         },
         ParamSpec {
             name: "max_epochs",
-            kind: ParamKind::Int { min: 1, max: 100_000 },
+            kind: ParamKind::Int {
+                min: 1,
+                max: 100_000,
+            },
             default: ParamValue::Int(200),
             about: "passes over the training rows at most",
         },
@@ -271,11 +280,7 @@ impl Model for Fitted {
     fn predict(&self, x: ArrayView2<'_, f64>) -> Scores {
         let logits = self.net.logits(x);
         if logits.ncols() == 2 {
-            let z: Vec<f64> = logits
-                .rows()
-                .into_iter()
-                .map(|r| r[1] - r[0])
-                .collect();
+            let z: Vec<f64> = logits.rows().into_iter().map(|r| r[1] - r[0]).collect();
             return Scores {
                 proba: binary_from_log_odds(&z),
                 native: Some(Array1::from(z).insert_axis(Axis(1))),
