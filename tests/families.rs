@@ -97,6 +97,40 @@ mod every_family {
         }
     }
 
+    /// The error of one cell of `family` on the given rows.
+    fn cell_error(
+        table: &candor::data::Table,
+        train: &[usize],
+        test: &[usize],
+        family: &learner::Family,
+    ) -> String {
+        let methods: Vec<(String, Box<dyn Calibrator>)> = calibrate::METHODS
+            .iter()
+            .map(|m| (m.name.to_string(), (m.build)(&Settings::default())))
+            .collect();
+        let metrics: Vec<_> = METRICS.iter().collect();
+        let learner = (family.build)(&Params::defaults(family.params));
+        let plan = CellPlan {
+            table,
+            train,
+            test,
+            inner_folds: 2,
+            inner_seed: 1,
+            model_seed: 2,
+            bootstrap: 0,
+            bootstrap_seed: 0,
+        };
+        run_cell(
+            &plan,
+            learner.as_ref(),
+            &methods,
+            &metrics,
+            &MetricOptions::default(),
+        )
+        .unwrap_err()
+        .to_string()
+    }
+
     #[test]
     fn single_class_or_constant_training_data_is_a_cell_error() {
         let mut csv = String::from("a,b,y\n");
@@ -109,34 +143,10 @@ mod every_family {
             ));
         }
         let table = parse_csv(csv.as_bytes(), "d.csv", "y", Some("q")).unwrap();
-        let methods: Vec<(String, Box<dyn Calibrator>)> = calibrate::METHODS
-            .iter()
-            .map(|m| (m.name.to_string(), (m.build)(&Settings::default())))
-            .collect();
-        let metrics: Vec<_> = METRICS.iter().collect();
         let one_class: Vec<usize> = (0..20).collect();
         let test: Vec<usize> = (20..40).collect();
         for family in FAMILIES {
-            let learner = (family.build)(&Params::defaults(family.params));
-            let plan = CellPlan {
-                table: &table,
-                train: &one_class,
-                test: &test,
-                inner_folds: 2,
-                inner_seed: 1,
-                model_seed: 2,
-                bootstrap: 0,
-                bootstrap_seed: 0,
-            };
-            let err = run_cell(
-                &plan,
-                learner.as_ref(),
-                &methods,
-                &metrics,
-                &MetricOptions::default(),
-            )
-            .unwrap_err()
-            .to_string();
+            let err = cell_error(&table, &one_class, &test, family);
             assert!(err.contains("single class"), "{}: {err}", family.kind);
         }
         // Every feature constant on the training rows.
@@ -149,26 +159,7 @@ mod every_family {
         let train: Vec<usize> = (0..30).collect();
         let test: Vec<usize> = (30..40).collect();
         for family in FAMILIES {
-            let learner = (family.build)(&Params::defaults(family.params));
-            let plan = CellPlan {
-                table: &table,
-                train: &train,
-                test: &test,
-                inner_folds: 2,
-                inner_seed: 1,
-                model_seed: 2,
-                bootstrap: 0,
-                bootstrap_seed: 0,
-            };
-            let err = run_cell(
-                &plan,
-                learner.as_ref(),
-                &methods,
-                &metrics,
-                &MetricOptions::default(),
-            )
-            .unwrap_err()
-            .to_string();
+            let err = cell_error(&table, &train, &test, family);
             assert!(err.contains("constant"), "{}: {err}", family.kind);
         }
     }

@@ -11,7 +11,7 @@
 //! rate. There is no sampling, so results are deterministic. F (binary) or
 //! the per-class scores (multiclass) are the native score.
 
-use super::tree::{Binned, MAX_BINS};
+use super::tree::{descend, partition, Binned, Node, MAX_BINS};
 use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
 use crate::error::Result;
 use crate::params::{ParamKind, ParamSpec, ParamValue};
@@ -80,41 +80,13 @@ struct Boosting {
     l2: f64,
 }
 
-#[derive(Debug, Clone, Copy)]
-enum Node {
-    Split {
-        feature: u32,
-        threshold: f64,
-        left: u32,
-        right: u32,
-    },
-    Leaf(f64),
-}
-
 struct RegressionTree {
-    nodes: Vec<Node>,
+    nodes: Vec<Node<f64>>,
 }
 
 impl RegressionTree {
     fn value(&self, x: ArrayView1<'_, f64>) -> f64 {
-        let mut i = 0;
-        loop {
-            match self.nodes[i] {
-                Node::Split {
-                    feature,
-                    threshold,
-                    left,
-                    right,
-                } => {
-                    i = if x[feature as usize] <= threshold {
-                        left as usize
-                    } else {
-                        right as usize
-                    }
-                }
-                Node::Leaf(v) => return v,
-            }
-        }
+        descend(&self.nodes, x)
     }
 }
 
@@ -179,14 +151,7 @@ impl Boosting {
                     }
                 }
                 Some((_, f, b)) => {
-                    let slice = &mut rows[start..end];
-                    let mut mid = 0;
-                    for i in 0..slice.len() {
-                        if data.code(f, slice[i] as usize) <= b {
-                            slice.swap(i, mid);
-                            mid += 1;
-                        }
-                    }
+                    let mid = partition(data, &mut rows[start..end], f, b);
                     let left = nodes.len();
                     nodes.push(Node::Leaf(0.0));
                     nodes.push(Node::Leaf(0.0));

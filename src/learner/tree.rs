@@ -89,22 +89,60 @@ pub(crate) struct Growth {
     pub features_per_split: usize,
 }
 
+/// A node of a tree whose leaves carry an `L` (an offset into class
+/// frequencies, or a boosting tree's value).
 #[derive(Debug, Clone, Copy)]
-enum Node {
+pub(crate) enum Node<L> {
     Split {
         feature: u32,
         threshold: f64,
         left: u32,
         right: u32,
     },
-    /// Offset of the leaf's class frequencies in `Tree::leaves`.
-    Leaf(u32),
+    Leaf(L),
+}
+
+/// The leaf payload a row reaches from the root (node 0); a row goes left
+/// when its value is at most the threshold.
+pub(crate) fn descend<L: Copy>(nodes: &[Node<L>], x: ArrayView1<'_, f64>) -> L {
+    let mut i = 0;
+    loop {
+        match nodes[i] {
+            Node::Split {
+                feature,
+                threshold,
+                left,
+                right,
+            } => {
+                i = if x[feature as usize] <= threshold {
+                    left as usize
+                } else {
+                    right as usize
+                };
+            }
+            Node::Leaf(payload) => return payload,
+        }
+    }
+}
+
+/// Moves the rows going left (bin at most `bin` of `feature`) to the front
+/// and returns how many there are.
+pub(crate) fn partition(data: &Binned, rows: &mut [u32], feature: usize, bin: usize) -> usize {
+    let mut mid = 0;
+    for i in 0..rows.len() {
+        if data.code(feature, rows[i] as usize) <= bin {
+            rows.swap(i, mid);
+            mid += 1;
+        }
+    }
+    mid
 }
 
 /// A fitted tree.
 #[derive(Debug, Clone)]
 pub(crate) struct Tree {
-    nodes: Vec<Node>,
+    /// Leaves hold the offset of their class frequencies in `leaves`.
+    nodes: Vec<Node<u32>>,
     leaves: Vec<f64>,
     n_classes: usize,
 }
@@ -112,27 +150,8 @@ pub(crate) struct Tree {
 impl Tree {
     /// The class frequencies of the leaf a row falls in.
     pub(crate) fn leaf(&self, x: ArrayView1<'_, f64>) -> &[f64] {
-        let mut i = 0;
-        loop {
-            match self.nodes[i] {
-                Node::Split {
-                    feature,
-                    threshold,
-                    left,
-                    right,
-                } => {
-                    i = if x[feature as usize] <= threshold {
-                        left as usize
-                    } else {
-                        right as usize
-                    };
-                }
-                Node::Leaf(offset) => {
-                    let o = offset as usize;
-                    return &self.leaves[o..o + self.n_classes];
-                }
-            }
-        }
+        let o = descend(&self.nodes, x) as usize;
+        &self.leaves[o..o + self.n_classes]
     }
 }
 
@@ -190,14 +209,7 @@ pub(crate) fn grow(
                 tree.leaves.extend(totals.iter().map(|t| t / w));
             }
             Some((feature, bin)) => {
-                let slice = &mut rows[start..end];
-                let mut mid = 0;
-                for i in 0..slice.len() {
-                    if data.code(feature, slice[i] as usize) <= bin {
-                        slice.swap(i, mid);
-                        mid += 1;
-                    }
-                }
+                let mid = partition(data, &mut rows[start..end], feature, bin);
                 let left = tree.nodes.len();
                 tree.nodes.push(Node::Leaf(0));
                 tree.nodes.push(Node::Leaf(0));
