@@ -5,11 +5,8 @@ use candor::params::{ParamValue, Params};
 use ndarray::Array2;
 use serde_json::Value;
 
-#[test]
-fn binary_logistic_matches_scikit_learn() {
-    // tests/fixtures/logistic.json: scikit-learn's LogisticRegression with
-    // C = 1 / l2 solved to tol 1e-12 (generator and versions recorded in the
-    // file). Our Newton solver must give the same log-odds for every row.
+/// tests/fixtures/logistic.json: the file, its rows, labels and matrix.
+fn linear_fixture() -> (Value, Vec<Vec<f64>>, Vec<usize>, Array2<f64>) {
     let path = format!(
         "{}/tests/fixtures/logistic.json",
         env!("CARGO_MANIFEST_DIR")
@@ -18,6 +15,15 @@ fn binary_logistic_matches_scikit_learn() {
     let rows: Vec<Vec<f64>> = serde_json::from_value(v["x"].clone()).unwrap();
     let y: Vec<usize> = serde_json::from_value(v["y"].clone()).unwrap();
     let x = Array2::from_shape_fn((rows.len(), rows[0].len()), |(i, j)| rows[i][j]);
+    (v, rows, y, x)
+}
+
+#[test]
+fn binary_logistic_matches_scikit_learn() {
+    // tests/fixtures/logistic.json: scikit-learn's LogisticRegression with
+    // C = 1 / l2 solved to tol 1e-12 (generator and versions recorded in the
+    // file). Our Newton solver must give the same log-odds for every row.
+    let (v, rows, y, x) = linear_fixture();
     let family = learner::find("logistic").unwrap();
     for case in v["cases"].as_array().unwrap() {
         let l2 = case["l2"].as_f64().unwrap();
@@ -171,14 +177,7 @@ fn linear_svm_matches_scikit_learn() {
     // hinge, bias as a constant feature, liblinear's dual coordinate
     // descent) solved to tol 1e-10. Both stop on a projected-gradient
     // tolerance, so margins agree to about 1e-3, not to rounding.
-    let path = format!(
-        "{}/tests/fixtures/logistic.json",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let v: Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
-    let rows: Vec<Vec<f64>> = serde_json::from_value(v["x"].clone()).unwrap();
-    let y: Vec<usize> = serde_json::from_value(v["y"].clone()).unwrap();
-    let x = Array2::from_shape_fn((rows.len(), rows[0].len()), |(i, j)| rows[i][j]);
+    let (v, rows, y, x) = linear_fixture();
     let family = learner::find("linear_svm").unwrap();
     for case in v["svm"].as_array().unwrap() {
         let c = case["c"].as_f64().unwrap();
