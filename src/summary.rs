@@ -55,29 +55,18 @@ pub fn summarise(exp: &Experiment, records: &[CellRecord]) -> Summary {
                 let mut failed = 0;
                 let mut strategy = String::new();
                 for cell in &cells {
-                    let Some(result) = cell.results.iter().find(|m| &m.method == method) else {
-                        failed += 1;
-                        for v in values.iter_mut() {
-                            v.push(f64::NAN);
-                        }
-                        continue;
-                    };
-                    strategy.clone_from(&result.strategy);
-                    if result.error.is_some() {
-                        failed += 1;
-                        // As with undefined values below: a mean over only
-                        // the folds that worked would flatter the method.
-                        for v in values.iter_mut() {
-                            v.push(f64::NAN);
-                        }
-                        continue;
+                    let result = cell.results.iter().find(|m| &m.method == method);
+                    if let Some(r) = result {
+                        strategy.clone_from(&r.strategy);
                     }
+                    // A failed family or method, or a value undefined in one
+                    // fold (a slope on outcomes the forecasts separate), makes
+                    // the mean undefined: averaging only the other folds
+                    // would pick the folds that favour the method.
+                    let ok = result.filter(|r| r.error.is_none());
+                    failed += usize::from(ok.is_none());
                     for (i, name) in exp.metrics.iter().enumerate() {
-                        // A value undefined in one fold (a slope on outcomes
-                        // the forecasts separate) makes the mean undefined:
-                        // averaging only the other folds would pick the
-                        // folds that favour the method.
-                        let v = result.metrics.get(name).copied().flatten();
+                        let v = ok.and_then(|r| r.metrics.get(name).copied().flatten());
                         values[i].push(v.unwrap_or(f64::NAN));
                     }
                 }
