@@ -1,7 +1,7 @@
 //! Fit and predict time of every family on bundled datasets of about 1k, 5k
 //! and 20k rows (german_credit, spambase, magic_gamma): fit on 80% of
 //! the rows, predict the other 20%, best of 3. Run with
-//! `cargo bench --bench families`; the README quotes the figures, and
+//! `cargo bench --bench families [FAMILY...]`; the README quotes the figures, and
 //! scripts/bench-peer.sh compares whole grids with scikit-learn.
 
 use candor::catalog::Catalog;
@@ -32,7 +32,15 @@ fn main() {
             candor::data::load(&spec, Some(&catalog), &dir).expect("bundled dataset")
         })
         .collect();
-    for family in FAMILIES {
+    // Cargo passes its own `--bench` flag; other words pick families.
+    let wanted: Vec<String> = std::env::args()
+        .skip(1)
+        .filter(|a| !a.starts_with('-'))
+        .collect();
+    for family in FAMILIES
+        .iter()
+        .filter(|f| wanted.is_empty() || wanted.iter().any(|w| w == f.kind))
+    {
         let learner = (family.build)(&Params::defaults(family.params));
         let mut line = format!("{:16}", family.kind);
         for table in &tables {

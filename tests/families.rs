@@ -175,8 +175,9 @@ mod every_family {
 fn linear_svm_matches_scikit_learn() {
     // tests/fixtures/logistic.json, "svm": scikit-learn's LinearSVC (squared
     // hinge, bias as a constant feature, liblinear's dual coordinate
-    // descent) solved to tol 1e-10. Both stop on a projected-gradient
-    // tolerance, so margins agree to about 1e-3, not to rounding.
+    // descent) solved to tol 1e-10; ours is the primal Newton solver run to
+    // a relative gradient norm of 1e-8. The same optimum reached by two
+    // different iterative solvers, so margins agree to 1e-6, not to rounding.
     let (v, rows, y, x) = linear_fixture();
     let family = learner::find("linear_svm").unwrap();
     for case in v["svm"].as_array().unwrap() {
@@ -184,7 +185,7 @@ fn linear_svm_matches_scikit_learn() {
         let mut params = Params::defaults(family.params);
         params.0.insert("c".into(), ParamValue::Float(c));
         params.0.insert("tol".into(), ParamValue::Float(1e-8));
-        params.0.insert("max_iter".into(), ParamValue::Int(100_000));
+        params.0.insert("max_iter".into(), ParamValue::Int(1000));
         let model = (family.build)(&params).fit(x.view(), &y, 2, 0).unwrap();
         let margins = model.predict(x.view()).native.unwrap();
         let coef: Vec<f64> = serde_json::from_value(case["coef"].clone()).unwrap();
@@ -193,7 +194,7 @@ fn linear_svm_matches_scikit_learn() {
             let want: f64 = intercept + row.iter().zip(&coef).map(|(a, b)| a * b).sum::<f64>();
             let got = margins[[i, 0]];
             assert!(
-                (got - want).abs() < 1e-3 * (1.0 + want.abs()),
+                (got - want).abs() < 1e-6 * (1.0 + want.abs()),
                 "C {c}, row {i}: {got} vs {want}"
             );
         }

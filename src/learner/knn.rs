@@ -3,8 +3,8 @@
 //!
 //! Why our own: measured on this machine, linfa-nn took about 3.7 s for
 //! 5,000 queries. Distances here come from one matrix product per block of
-//! queries (|a|^2 + |b|^2 - 2 a.b), and the k nearest from a linear-time
-//! selection; equal distances are broken by the lower training-row index, so
+//! queries (|b|^2 - 2 a.b ranks training rows b as |a - b|^2 does), and the
+//! k nearest from one pass that keeps a sorted list of k; equal distances are broken by the lower training-row index, so
 //! the neighbours, and the probabilities, are deterministic. No native score:
 //! calibrators read the fractions.
 
@@ -80,24 +80,31 @@ impl Model for Fitted {
     fn predict(&self, q: ArrayView2<'_, f64>) -> Scores {
         let n = q.nrows();
         let mut proba = Array2::zeros((n, self.n_classes));
-        let mut order: Vec<(f64, u32)> = Vec::with_capacity(self.y.len());
+        // The k best (distance, row) pairs so far, kept sorted; a row
+        // enters only if it beats the current k-th, so most rows cost one
+        // comparison.
+        let mut best: Vec<(f64, u32)> = Vec::with_capacity(self.k + 1);
         for start in (0..n).step_by(BLOCK) {
             let end = (start + BLOCK).min(n);
             let block = q.slice(s![start..end, ..]);
             let cross = block.dot(&self.x.t());
             for (i, row) in cross.rows().into_iter().enumerate() {
-                let qn = block.row(i).dot(&block.row(i));
-                order.clear();
-                order.extend(
-                    row.iter()
-                        .zip(&self.norms)
-                        .enumerate()
-                        .map(|(j, (&c, &nj))| (qn + nj - 2.0 * c, j as u32)),
-                );
-                let cmp = |a: &(f64, u32), b: &(f64, u32)| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1));
-                order.select_nth_unstable_by(self.k - 1, cmp);
+                best.clear();
+                // |q|^2 is the same for every training row, so it is left
+                // out of the ranking.
+                for (j, (&c, &nj)) in row.iter().zip(&self.norms).enumerate() {
+                    let dist = nj - 2.0 * c;
+                    // Rows come in index order, so a tie with the k-th
+                    // loses: the lower index wins, as documented.
+                    if best.len() == self.k && dist >= best[self.k - 1].0 {
+                        continue;
+                    }
+                    let at = best.partition_point(|&(d, _)| d <= dist);
+                    best.insert(at, (dist, j as u32));
+                    best.truncate(self.k);
+                }
                 let mut out = proba.row_mut(start + i);
-                for &(_, j) in &order[..self.k] {
+                for &(_, j) in &best {
                     out[self.y[j as usize]] += 1.0;
                 }
                 out.mapv_inplace(|v| v / self.k as f64);

@@ -1,13 +1,18 @@
 //! Linear support vector machine: L2-regularised squared-hinge loss
-//! (scikit-learn's LinearSVC default) solved in the dual by coordinate
-//! descent (Hsieh, Chang, Lin, Keerthi & Sundararajan 2008), with the bias as
-//! a constant feature, as liblinear does. Multiclass tasks train one machine
+//! (scikit-learn's LinearSVC default) with the bias as a regularised
+//! constant feature, as liblinear does. Multiclass tasks train one machine
 //! per class against the rest.
 //!
-//! Why our own: measured on this machine, linfa-svm with the linear kernel
-//! took about 18 s on 3,000 rows because it builds the dense n x n kernel
-//! matrix; dual coordinate descent works on the rows directly, and
-//! liblinear's shrinking skips rows that sit at their bound.
+//! Solved in the primal by Newton's method with conjugate-gradient steps on
+//! the generalised Hessian I + 2C X_I' X_I, where I is the set of rows
+//! inside the margin (Keerthi & DeCoste 2005; liblinear's trust-region
+//! solver is the same idea). Why our own: linfa-svm with the linear kernel
+//! took about 18 s on 3,000 rows here, because it builds the dense n x n
+//! kernel matrix. An earlier dual coordinate-descent solver of ours ran to
+//! its epoch limit on 19,000-row data (0.85 s) where the primal solver
+//! converges in a handful of Newton steps, as scikit-learn's default does
+//! when rows outnumber features. The loss is piecewise quadratic, so the
+//! Newton iterations end exactly once the margin set stops changing.
 //!
 //! The raw probability is the margin rescaled by the smallest and largest
 //! training margins and clipped to [0, 1], as in Niculescu-Mizil & Caruana's
@@ -19,30 +24,38 @@
 use super::{Family, Learner, Model, Scores};
 use crate::error::Result;
 use crate::params::{ParamKind, ParamSpec, ParamValue};
-use crate::rng::{derive_seed, SplitMix64};
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 
 pub const FAMILY: Family = Family {
     kind: "linear_svm",
-    about: "linear SVM (squared hinge, dual coordinate descent); margin min-max rescaled for the raw row",
+    about: "linear SVM (squared hinge, primal Newton); margin min-max rescaled for the raw row",
     params: &[
         ParamSpec {
             name: "c",
-            kind: ParamKind::Float { min: 1e-8, max: 1e8 },
+            kind: ParamKind::Float {
+                min: 1e-8,
+                max: 1e8,
+            },
             default: ParamValue::Float(1.0),
             about: "inverse regularisation strength (larger fits the training data harder)",
         },
         ParamSpec {
             name: "max_iter",
-            kind: ParamKind::Int { min: 1, max: 100_000 },
-            default: ParamValue::Int(1000),
-            about: "passes over the training rows",
+            kind: ParamKind::Int {
+                min: 1,
+                max: 100_000,
+            },
+            default: ParamValue::Int(100),
+            about: "Newton iterations",
         },
         ParamSpec {
             name: "tol",
-            kind: ParamKind::Float { min: 1e-12, max: 1.0 },
-            default: ParamValue::Float(1e-4),
-            about: "stop when the projected gradient's spread falls below this",
+            kind: ParamKind::Float {
+                min: 1e-12,
+                max: 1.0,
+            },
+            default: ParamValue::Float(1e-6),
+            about: "stop when the gradient's norm falls below this fraction of its norm at zero",
         },
     ],
     build: |p| {
@@ -69,6 +82,13 @@ struct Machine {
 }
 
 impl Machine {
+    fn new(x: ArrayView2<'_, f64>, w: Array1<f64>, b: f64) -> Self {
+        let m = x.dot(&w) + b;
+        let low = m.iter().copied().fold(f64::INFINITY, f64::min);
+        let high = m.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        Machine { w, b, low, high }
+    }
+
     fn margins(&self, x: ArrayView2<'_, f64>) -> Array1<f64> {
         x.dot(&self.w) + self.b
     }
@@ -83,72 +103,101 @@ impl Machine {
 }
 
 impl Svm {
-    /// Dual coordinate descent for labels t in {-1, +1}.
-    fn train(&self, x: ArrayView2<'_, f64>, t: &[f64], seed: u64) -> Machine {
-        let (n, d) = x.dim();
-        let diag = 0.5 / self.c;
-        let q: Vec<f64> = x
-            .rows()
-            .into_iter()
-            .map(|r| r.dot(&r) + 1.0 + diag)
-            .collect();
-        let mut alpha = vec![0.0; n];
+    /// Primal Newton-CG for labels t in {-1, +1}.
+    fn train(&self, x: ArrayView2<'_, f64>, t: &[f64]) -> Machine {
+        let d = x.ncols();
+        let c2 = 2.0 * self.c;
         let mut w = Array1::<f64>::zeros(d);
         let mut b = 0.0;
-        let mut order: Vec<usize> = (0..n).collect();
-        let mut rng = SplitMix64::new(seed);
-        // Shrinking, as in liblinear: a row at its bound whose gradient
-        // says it will stay there leaves the active set; when the active
-        // rows converge, every row is checked again before stopping.
-        let mut active = n;
-        // No upper bound on alpha (squared hinge), so only rows at 0 shrink.
-        let mut pg_max_old = f64::INFINITY;
-        let mut epochs = 0;
-        while epochs < self.max_iter {
-            rng.shuffle(&mut order[..active]);
-            let (mut pg_max, mut pg_min) = (f64::NEG_INFINITY, f64::INFINITY);
-            let mut s = 0;
-            while s < active {
-                let i = order[s];
-                let xi = x.row(i);
-                let g = t[i] * (xi.dot(&w) + b) - 1.0 + diag * alpha[i];
-                let pg = if alpha[i] == 0.0 {
-                    if g > pg_max_old {
-                        active -= 1;
-                        order.swap(s, active);
-                        continue;
-                    }
-                    g.min(0.0)
-                } else {
-                    g
-                };
-                pg_max = pg_max.max(pg);
-                pg_min = pg_min.min(pg);
-                if pg.abs() > 1e-12 {
-                    let old = alpha[i];
-                    alpha[i] = (old - g / q[i]).max(0.0);
-                    let delta = (alpha[i] - old) * t[i];
-                    w.scaled_add(delta, &xi);
-                    b += delta;
-                }
-                s += 1;
+        let mut g0 = None;
+        for _ in 0..self.max_iter {
+            let m = x.dot(&w) + b;
+            // Slack of each row inside the margin; zero outside it.
+            let slack = Array1::from_iter(m.iter().zip(t).map(|(mi, ti)| (1.0 - ti * mi).max(0.0)));
+            let f = 0.5 * (w.dot(&w) + b * b) + self.c * slack.dot(&slack);
+            let coef = Array1::from_iter(slack.iter().zip(t).map(|(s, ti)| -c2 * ti * s));
+            let gw = &w + &x.t().dot(&coef);
+            let gb = b + coef.sum();
+            let gnorm = (gw.dot(&gw) + gb * gb).sqrt();
+            let g0 = *g0.get_or_insert(gnorm);
+            if gnorm <= self.tol * g0 || gnorm == 0.0 {
+                break;
             }
-            epochs += 1;
-            if pg_max - pg_min <= self.tol {
-                if active == n {
+            let inside: Vec<f64> = slack
+                .iter()
+                .map(|&s| f64::from(u8::from(s > 0.0)))
+                .collect();
+            let (sw, sb) =
+                conjugate_gradient(x, &inside, c2, &gw, gb, (gnorm / g0).sqrt().min(0.1));
+            // Armijo backtracking along the Newton direction.
+            let slope = gw.dot(&sw) + gb * sb;
+            if slope >= 0.0 {
+                break;
+            }
+            let mut step = 1.0;
+            loop {
+                let nw = &w + &(&sw * step);
+                let nb = b + sb * step;
+                let nm = x.dot(&nw) + nb;
+                let loss: f64 = nm
+                    .iter()
+                    .zip(t)
+                    .map(|(mi, ti)| (1.0 - ti * mi).max(0.0).powi(2))
+                    .sum();
+                let nf = 0.5 * (nw.dot(&nw) + nb * nb) + self.c * loss;
+                if nf <= f + 1e-4 * step * slope {
+                    w = nw;
+                    b = nb;
                     break;
                 }
-                active = n;
-                pg_max_old = f64::INFINITY;
-                continue;
+                step /= 2.0;
+                if step < 1e-12 {
+                    // No decrease is representable: the optimum to
+                    // machine precision.
+                    return Machine::new(x, w, b);
+                }
             }
-            pg_max_old = if pg_max <= 0.0 { f64::INFINITY } else { pg_max };
         }
-        let m = x.dot(&w) + b;
-        let low = m.iter().copied().fold(f64::INFINITY, f64::min);
-        let high = m.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        Machine { w, b, low, high }
+        Machine::new(x, w, b)
     }
+}
+
+/// Solves (I + c2 X_I' X_I) s = -g approximately, with the bias as a
+/// constant feature; stops when the residual falls to `forcing` times |g|.
+fn conjugate_gradient(
+    x: ArrayView2<'_, f64>,
+    inside: &[f64],
+    c2: f64,
+    gw: &Array1<f64>,
+    gb: f64,
+    forcing: f64,
+) -> (Array1<f64>, f64) {
+    let hessian_times = |vw: &Array1<f64>, vb: f64| {
+        let z = Array1::from_iter((x.dot(vw) + vb).iter().zip(inside).map(|(z, a)| z * a));
+        (vw + &(x.t().dot(&z) * c2), vb + c2 * z.sum())
+    };
+    let (mut sw, mut sb) = (Array1::<f64>::zeros(gw.len()), 0.0);
+    let (mut rw, mut rb) = (-gw, -gb);
+    let (mut pw, mut pb) = (rw.clone(), rb);
+    let mut rr = rw.dot(&rw) + rb * rb;
+    let target = forcing * forcing * rr;
+    for _ in 0..2 * (gw.len() + 1) {
+        if rr <= target {
+            break;
+        }
+        let (hw, hb) = hessian_times(&pw, pb);
+        let alpha = rr / (pw.dot(&hw) + pb * hb);
+        sw.scaled_add(alpha, &pw);
+        sb += alpha * pb;
+        rw.scaled_add(-alpha, &hw);
+        rb -= alpha * hb;
+        let next = rw.dot(&rw) + rb * rb;
+        let beta = next / rr;
+        rr = next;
+        pw = &rw + &(&pw * beta);
+        pb = rb + beta * pb;
+    }
+    (sw, sb)
 }
 
 struct Fitted {
@@ -166,7 +215,7 @@ impl Learner for Svm {
         x: ArrayView2<'_, f64>,
         y: &[usize],
         n_classes: usize,
-        seed: u64,
+        _seed: u64,
     ) -> Result<Box<dyn Model>> {
         let classes: Vec<usize> = if n_classes == 2 {
             vec![1]
@@ -177,7 +226,7 @@ impl Learner for Svm {
             .iter()
             .map(|&k| {
                 let t: Vec<f64> = y.iter().map(|&v| if v == k { 1.0 } else { -1.0 }).collect();
-                self.train(x, &t, derive_seed(seed, &["class", &k.to_string()]))
+                self.train(x, &t)
             })
             .collect();
         Ok(Box::new(Fitted {
