@@ -21,10 +21,13 @@ pub mod metrics;
 pub mod params;
 pub mod preprocess;
 pub mod protocol;
+pub mod report;
 pub mod rng;
 pub mod runner;
+pub mod stats;
 pub mod store;
 pub mod summary;
+pub mod table;
 
 pub use error::{Error, Result};
 

@@ -1,6 +1,7 @@
 //! The `candor` command line: a thin layer over the library.
 
 use candor::export::{Exporter, Text};
+use candor::report::ReportOptions;
 use candor::runner::{self, RunOptions};
 use candor::{calibrate, catalog, learner, manifest, metrics};
 use clap::{Parser, Subcommand, ValueEnum};
@@ -39,6 +40,24 @@ enum Command {
         /// No progress bar and no table; errors only.
         #[arg(long, short)]
         quiet: bool,
+        /// Metric that decides "best" and the ranking in the report.
+        #[arg(long, default_value = "brier")]
+        metric: String,
+        /// Also write PNG copies of the report's figures.
+        #[arg(long)]
+        png: bool,
+    },
+    /// Write the tables, diagnosis, ranking, figures and HTML report of a
+    /// finished results folder into its `report/` folder.
+    Report {
+        /// The results folder `candor run` wrote.
+        results: PathBuf,
+        /// Metric that decides "best" and the ranking.
+        #[arg(long, default_value = "brier")]
+        metric: String,
+        /// Also write PNG copies of the figures.
+        #[arg(long)]
+        png: bool,
     },
     /// Check a manifest and its datasets without training anything.
     Check {
@@ -119,6 +138,8 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             threads,
             datasets,
             quiet,
+            metric,
+            png,
         } => {
             let exp = manifest::load(&path)?;
             let out_dir = out.unwrap_or_else(|| PathBuf::from("results").join(&exp.name));
@@ -150,7 +171,12 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
                 } else {
                     shown
                 };
-                text.push_str(&Text { metrics: shown }.render(&report.summary));
+                for metric in &shown {
+                    if let Some(t) = report.summary.by_method(metric) {
+                        text.push_str(&Text.render(&t));
+                        text.push('\n');
+                    }
+                }
                 let _ = writeln!(
                     text,
                     "{} cells computed, {} reused; results in {}",
@@ -158,6 +184,10 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
                     report.reused,
                     out_dir.display()
                 );
+            }
+            let html = candor::report::generate(&out_dir, &ReportOptions { metric, png })?;
+            if !quiet {
+                let _ = writeln!(text, "report: {}", html.display());
             }
             if report.failures.is_empty() {
                 Ok(ExitCode::SUCCESS)
@@ -171,6 +201,15 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
                 );
                 Ok(ExitCode::from(3))
             }
+        }
+        Command::Report {
+            results,
+            metric,
+            png,
+        } => {
+            let html = candor::report::generate(&results, &ReportOptions { metric, png })?;
+            let _ = writeln!(text, "report: {}", html.display());
+            Ok(ExitCode::SUCCESS)
         }
         Command::Check {
             manifest: path,

@@ -369,7 +369,7 @@ fn write_outputs(
     write_atomic(&store.dir.join("records.jsonl"), jsonl.as_bytes())?;
     write_atomic(
         &store.dir.join("summary.csv"),
-        Csv.render(summary).as_bytes(),
+        Csv.render(&summary.table()).as_bytes(),
     )?;
     let info = RunInfo {
         experiment: &exp.name,

@@ -1,7 +1,10 @@
 //! Folding per-fold records into one row per (dataset, family, method).
 
 use crate::manifest::Experiment;
+use crate::metrics;
+use crate::protocol::MethodResult;
 use crate::store::CellRecord;
+use crate::table::{Table, Value};
 
 /// Mean and spread of one metric over all folds; NaN when the family or
 /// method failed, or the metric was undefined, in any of them.
@@ -51,25 +54,20 @@ pub fn summarise(exp: &Experiment, records: &[CellRecord]) -> Summary {
                 .filter(|r| r.dataset == d.name && r.family == f.name)
                 .collect();
             for method in &exp.methods {
-                let mut values: Vec<Vec<f64>> = vec![Vec::new(); exp.metrics.len()];
-                let mut failed = 0;
-                let mut strategy = String::new();
-                for cell in &cells {
-                    let result = cell.results.iter().find(|m| &m.method == method);
-                    if let Some(r) = result {
-                        strategy.clone_from(&r.strategy);
-                    }
-                    // A failed family or method, or a value undefined in one
-                    // fold (a slope on outcomes the forecasts separate), makes
-                    // the mean undefined: averaging only the other folds
-                    // would pick the folds that favour the method.
-                    let ok = result.filter(|r| r.error.is_none());
-                    failed += usize::from(ok.is_none());
-                    for (i, name) in exp.metrics.iter().enumerate() {
-                        let v = ok.and_then(|r| r.metrics.get(name).copied().flatten());
-                        values[i].push(v.unwrap_or(f64::NAN));
-                    }
-                }
+                let strategy = cells
+                    .iter()
+                    .find_map(|c| c.results.iter().find(|m| &m.method == method))
+                    .map(|r| r.strategy.clone())
+                    .unwrap_or_default();
+                let failed = cells
+                    .iter()
+                    .filter(|c| method_result(c, method).is_none())
+                    .count();
+                let values: Vec<Vec<f64>> = exp
+                    .metrics
+                    .iter()
+                    .map(|name| fold_values(&cells, method, name))
+                    .collect();
                 rows.push(Row {
                     dataset: d.name.clone(),
                     family: f.name.clone(),
@@ -89,6 +87,146 @@ pub fn summarise(exp: &Experiment, records: &[CellRecord]) -> Summary {
         rows,
         manifest_sha256: exp.source.sha256.clone(),
         candor_version: crate::VERSION.to_string(),
+    }
+}
+
+/// A method's successful result in one cell, if the family and the method
+/// both fitted.
+pub fn method_result<'a>(cell: &'a CellRecord, method: &str) -> Option<&'a MethodResult> {
+    cell.results
+        .iter()
+        .find(|m| m.method == method)
+        .filter(|r| r.error.is_none())
+}
+
+/// One metric's value in each cell, in the cells' order, NaN where the
+/// family or method failed or the metric was undefined. A failed fold makes
+/// any mean over these undefined: averaging only the other folds would pick
+/// the folds that favour the method.
+pub fn fold_values(cells: &[&CellRecord], method: &str, metric: &str) -> Vec<f64> {
+    cells
+        .iter()
+        .map(|c| {
+            method_result(c, method)
+                .and_then(|r| r.metrics.get(metric).copied().flatten())
+                .unwrap_or(f64::NAN)
+        })
+        .collect()
+}
+
+impl Summary {
+    /// The `summary.csv` table: `dataset`, `family`, `method`, then for each
+    /// metric its mean over folds under the metric's own name and its
+    /// standard deviation as `<metric>_sd`, then `strategy`, `folds`,
+    /// `failed_folds`, `manifest_sha256` and `candor_version`.
+    pub fn table(&self) -> Table {
+        let mut columns = vec!["dataset".to_string(), "family".into(), "method".into()];
+        for m in &self.metrics {
+            columns.push(m.clone());
+            columns.push(format!("{m}_sd"));
+        }
+        for extra in [
+            "strategy",
+            "folds",
+            "failed_folds",
+            "manifest_sha256",
+            "candor_version",
+        ] {
+            columns.push(extra.into());
+        }
+        let rows = self
+            .rows
+            .iter()
+            .map(|r| {
+                let mut v: Vec<Value> = vec![
+                    r.dataset.as_str().into(),
+                    r.family.as_str().into(),
+                    r.method.as_str().into(),
+                ];
+                for st in &r.stats {
+                    v.push(st.mean.into());
+                    v.push(st.sd.into());
+                }
+                v.push(r.strategy.as_str().into());
+                v.push(r.folds.into());
+                v.push(r.failed.into());
+                v.push(self.manifest_sha256.as_str().into());
+                v.push(self.candor_version.as_str().into());
+                v
+            })
+            .collect();
+        Table {
+            name: "summary".into(),
+            title: format!("{}: every metric, mean and sd over folds", self.experiment),
+            notes: Vec::new(),
+            columns,
+            rows,
+        }
+    }
+
+    /// The terminal view of one metric: a line per (dataset, family), a
+    /// column per method, the best method of each line marked with `*`.
+    pub fn by_method(&self, metric: &str) -> Option<Table> {
+        let mi = self.metrics.iter().position(|m| m == metric)?;
+        let higher = metrics::find(metric).and_then(|m| m.higher_is_better);
+        let mut methods: Vec<&str> = Vec::new();
+        let mut lines: Vec<(&str, &str)> = Vec::new();
+        for r in &self.rows {
+            if !methods.contains(&r.method.as_str()) {
+                methods.push(&r.method);
+            }
+            if !lines.contains(&(r.dataset.as_str(), r.family.as_str())) {
+                lines.push((&r.dataset, &r.family));
+            }
+        }
+        let what = match metric {
+            "ece" => format!("ECE ({} equal-width bins)", self.bins),
+            "brier" => "Brier score".to_string(),
+            "log_loss" => "log loss".to_string(),
+            other => other.to_string(),
+        };
+        let direction = match higher {
+            Some(true) => ", * = best per line, higher is better",
+            Some(false) => ", * = best per line, lower is better",
+            None => "",
+        };
+        let mut columns = vec!["dataset", "family"];
+        columns.extend(&methods);
+        let mut t = Table::new(
+            &format!("by_method_{metric}"),
+            &format!("{what}: mean over folds{direction}"),
+            &columns,
+        );
+        for (d, f) in lines {
+            let values: Vec<f64> = methods
+                .iter()
+                .map(|m| {
+                    self.rows
+                        .iter()
+                        .find(|r| r.dataset == d && r.family == f && r.method == *m)
+                        .map_or(f64::NAN, |r| r.stats[mi].mean)
+                })
+                .collect();
+            let best = higher.and_then(|h| {
+                values
+                    .iter()
+                    .copied()
+                    .filter(|v| v.is_finite())
+                    .reduce(|a, b| if (h && b > a) || (!h && b < a) { b } else { a })
+            });
+            let mut row: Vec<Value> = vec![d.into(), f.into()];
+            row.extend(values.iter().map(|&v| {
+                Value::Text(if !v.is_finite() {
+                    "failed".to_string()
+                } else if Some(v) == best {
+                    format!("{v:.4}*")
+                } else {
+                    format!("{v:.4} ")
+                })
+            }));
+            t.rows.push(row);
+        }
+        Some(t)
     }
 }
 

@@ -1,56 +1,24 @@
-//! `summary.csv`: one row per (dataset, family, method).
-//!
-//! Columns: `dataset`, `family`, `method`, then for each metric its mean over
-//! folds under the metric's own name and its standard deviation as
-//! `<metric>_sd`, then `strategy`, `folds`, `failed_folds`,
-//! `manifest_sha256` and `candor_version`. Undefined values (a standard
-//! deviation from one fold, a row whose folds all failed) are empty fields.
+//! CSV: a header row, then one record per row at full precision; undefined
+//! numbers are empty fields. Titles and notes are left to the other formats
+//! so the file loads straight into a data frame.
 
 use super::Exporter;
-use crate::summary::Summary;
+use crate::table::{exact, Table};
 
 /// The CSV exporter.
 pub struct Csv;
 
-fn number(v: f64) -> String {
-    if v.is_finite() {
-        format!("{v}")
-    } else {
-        String::new()
-    }
-}
-
 impl Exporter for Csv {
-    fn render(&self, s: &Summary) -> String {
+    fn extension(&self) -> &'static str {
+        "csv"
+    }
+
+    fn render(&self, t: &Table) -> String {
         let mut w = ::csv::WriterBuilder::new().from_writer(Vec::new());
-        let mut header = vec!["dataset".to_string(), "family".into(), "method".into()];
-        for m in &s.metrics {
-            header.push(m.clone());
-            header.push(format!("{m}_sd"));
-        }
-        for extra in [
-            "strategy",
-            "folds",
-            "failed_folds",
-            "manifest_sha256",
-            "candor_version",
-        ] {
-            header.push(extra.into());
-        }
         // Writing to memory cannot fail.
-        let _ = w.write_record(&header);
-        for r in &s.rows {
-            let mut fields = vec![r.dataset.clone(), r.family.clone(), r.method.clone()];
-            for st in &r.stats {
-                fields.push(number(st.mean));
-                fields.push(number(st.sd));
-            }
-            fields.push(r.strategy.clone());
-            fields.push(r.folds.to_string());
-            fields.push(r.failed.to_string());
-            fields.push(s.manifest_sha256.clone());
-            fields.push(s.candor_version.clone());
-            let _ = w.write_record(&fields);
+        let _ = w.write_record(&t.columns);
+        for row in &t.rows {
+            let _ = w.write_record(row.iter().map(exact));
         }
         String::from_utf8(w.into_inner().unwrap_or_default()).unwrap_or_default()
     }

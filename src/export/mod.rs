@@ -1,14 +1,23 @@
-//! Exporters: each renders the summary table in one format.
+//! Exporters: each renders a [`Table`] in one format, one module per format.
 
 mod csv;
+mod json;
+mod markdown;
 mod text;
 
 pub use self::csv::Csv;
+pub use self::json::Json;
+pub use self::markdown::Markdown;
 pub use self::text::Text;
 
-use crate::summary::Summary;
+use crate::table::Table;
 
-/// Renders a summary table as text in one format.
+/// Renders a table in one format.
 pub trait Exporter {
-    fn render(&self, summary: &Summary) -> String;
+    /// The file extension, without the dot.
+    fn extension(&self) -> &'static str;
+    fn render(&self, table: &Table) -> String;
 }
+
+/// The formats every report table is written in.
+pub const TABLE_FORMATS: &[&dyn Exporter] = &[&Markdown, &Csv, &Json];

@@ -30,7 +30,19 @@ pub fn wilson(successes: f64, n: f64, z: f64) -> (f64, f64) {
     let denom = 1.0 + z2 / n;
     let centre = (phat + z2 / (2.0 * n)) / denom;
     let half = z / denom * (phat * (1.0 - phat) / n + z2 / (4.0 * n * n)).sqrt();
-    ((centre - half).max(0.0), (centre + half).min(1.0))
+    // At 0 or n successes the bound is exactly 0 or 1; rounding in
+    // centre - half would otherwise leave a bound just inside.
+    let low = if successes <= 0.0 {
+        0.0
+    } else {
+        (centre - half).max(0.0)
+    };
+    let high = if successes >= n {
+        1.0
+    } else {
+        (centre + half).min(1.0)
+    };
+    (low, high)
 }
 
 /// The non-empty bins of the diagram for the binary (positive-class) or

@@ -1,0 +1,234 @@
+//! `candor report`: turns a results folder into the tables, diagnosis,
+//! ranking, figures and the one-file HTML report a team reads to choose a
+//! family and a calibration method. Everything is derived from
+//! `records.jsonl` and `run.json`, so a report can be rebuilt at any time
+//! and gives the same bytes for the same results.
+
+mod diagnosis;
+mod figures;
+mod html;
+mod ranking;
+mod tables;
+
+pub use diagnosis::{diagnose, Diagnosis, Shape};
+pub use ranking::Ranking;
+
+use crate::error::{Error, Result};
+use crate::export::TABLE_FORMATS;
+use crate::manifest::{self, Experiment, ManifestSource};
+use crate::store::{write_atomic, CellRecord};
+use crate::table::Table;
+use std::path::{Path, PathBuf};
+
+/// Choices a reader can make about the report.
+#[derive(Debug, Clone)]
+pub struct ReportOptions {
+    /// The metric that decides "best" and the ranking; a proper scoring
+    /// rule (Brier) by default, because calibration error alone rewards a
+    /// model that always predicts the base rate.
+    pub metric: String,
+    /// Also write PNG copies of the figures.
+    pub png: bool,
+}
+
+impl Default for ReportOptions {
+    fn default() -> Self {
+        ReportOptions {
+            metric: "brier".into(),
+            png: false,
+        }
+    }
+}
+
+/// A finished results folder, read back.
+pub struct Results {
+    pub dir: PathBuf,
+    pub exp: Experiment,
+    /// `run.json` as written by the run.
+    pub info: serde_json::Value,
+    pub records: Vec<CellRecord>,
+}
+
+impl Results {
+    /// Reads `run.json` and `records.jsonl` from a results folder.
+    pub fn load(dir: &Path) -> Result<Results> {
+        let run_path = dir.join("run.json");
+        let text = std::fs::read_to_string(&run_path).map_err(|e| {
+            Error::Io(format!(
+                "{}: cannot read: {e}; point `candor report` at a folder that `candor run` finished",
+                run_path.display()
+            ))
+        })?;
+        let info: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
+            Error::Io(format!(
+                "{}: not a candor run.json ({e}); rerun `candor run` to rewrite it",
+                run_path.display()
+            ))
+        })?;
+        let manifest_text = info["manifest"].as_str().unwrap_or_default().to_string();
+        let exp = manifest::parse(ManifestSource {
+            path: run_path.clone(),
+            sha256: info["manifest_sha256"]
+                .as_str()
+                .unwrap_or_default()
+                .to_string(),
+            text: manifest_text,
+        })?;
+        let rec_path = dir.join("records.jsonl");
+        let lines = std::fs::read_to_string(&rec_path).map_err(|e| {
+            Error::Io(format!(
+                "{}: cannot read: {e}; rerun `candor run` to finish the results",
+                rec_path.display()
+            ))
+        })?;
+        let mut records = Vec::new();
+        for (i, line) in lines
+            .lines()
+            .enumerate()
+            .filter(|(_, l)| !l.trim().is_empty())
+        {
+            let r: CellRecord = serde_json::from_str(line).map_err(|e| {
+                Error::Io(format!(
+                    "{}:{}: not a cell record ({e}); rerun `candor run` to rewrite it",
+                    rec_path.display(),
+                    i + 1
+                ))
+            })?;
+            records.push(r);
+        }
+        Ok(Results {
+            dir: dir.to_path_buf(),
+            exp,
+            info,
+            records,
+        })
+    }
+
+    /// The cells of one (dataset, family), in (repeat, fold) order, so that
+    /// per-fold values of two methods pair up.
+    pub fn cells(&self, dataset: &str, family: &str) -> Vec<&CellRecord> {
+        let mut cells: Vec<&CellRecord> = self
+            .records
+            .iter()
+            .filter(|r| r.dataset == dataset && r.family == family)
+            .collect();
+        cells.sort_by_key(|r| (r.repeat, r.fold));
+        cells
+    }
+
+    /// Number of classes of a dataset, from its cells.
+    pub fn classes(&self, dataset: &str) -> usize {
+        self.records
+            .iter()
+            .find(|r| r.dataset == dataset)
+            .map_or(0, |r| r.n_classes)
+    }
+}
+
+/// Test rows over training rows, averaged over cells, for the corrected
+/// fold interval.
+fn test_over_train(cells: &[&CellRecord]) -> f64 {
+    let n = cells.len().max(1) as f64;
+    cells
+        .iter()
+        .map(|c| c.n_test as f64 / c.n_train.max(1) as f64)
+        .sum::<f64>()
+        / n
+}
+
+/// Draws a figure as PNG into a file.
+pub type PngWriter = Box<dyn Fn(&Path) -> Result<()>>;
+
+/// One figure: its path under `report/`, its SVG text and a caption.
+pub struct Figure {
+    pub path: String,
+    pub caption: String,
+    pub svg: String,
+    /// Draws the same figure as PNG.
+    png: PngWriter,
+}
+
+/// Everything a report holds before it is written.
+pub struct Report {
+    pub tables: Vec<Table>,
+    pub ranking: Option<Ranking>,
+    pub figures: Vec<Figure>,
+    pub html: String,
+}
+
+/// Builds the report for a results folder.
+pub fn build(results: &Results, opts: &ReportOptions) -> Result<Report> {
+    let Some(metric) = crate::metrics::find(&opts.metric) else {
+        return Err(Error::Manifest(format!(
+            "--metric {}: unknown metric; choose one of: {}",
+            opts.metric,
+            crate::metrics::known_metrics()
+        )));
+    };
+    if !results.exp.metrics.iter().any(|m| m == metric.name) {
+        return Err(Error::Manifest(format!(
+            "--metric {}: these results did not compute it; choose one of: {}",
+            metric.name,
+            results.exp.metrics.join(", ")
+        )));
+    }
+    let intervals = tables::intervals(results);
+    let mut all = vec![
+        tables::metric_table(results, &intervals),
+        tables::family_table(results, metric),
+        tables::dataset_table(results, metric),
+    ];
+    let diagnoses = diagnosis::table(results);
+    all.push(diagnoses);
+    let ranking = ranking::rank(results, metric);
+    if let Some(r) = &ranking {
+        all.push(r.table());
+    }
+    let figures = figures::all(results, ranking.as_ref())?;
+    let html = html::render(results, &all, &figures);
+    Ok(Report {
+        tables: all,
+        ranking,
+        figures,
+        html,
+    })
+}
+
+/// Writes a report under `<results>/report/`; every file is written
+/// atomically. Returns the HTML report's path.
+pub fn write(results: &Results, report: &Report, opts: &ReportOptions) -> Result<PathBuf> {
+    let dir = results.dir.join("report");
+    let make = |d: &Path| {
+        std::fs::create_dir_all(d).map_err(|e| Error::io(d, "create the report folder", &e))
+    };
+    make(&dir)?;
+    for t in &report.tables {
+        for ex in TABLE_FORMATS {
+            write_atomic(
+                &dir.join(format!("{}.{}", t.name, ex.extension())),
+                ex.render(t).as_bytes(),
+            )?;
+        }
+    }
+    for f in &report.figures {
+        let path = dir.join(&f.path);
+        if let Some(parent) = path.parent() {
+            make(parent)?;
+        }
+        write_atomic(&path, f.svg.as_bytes())?;
+        if opts.png {
+            (f.png)(&path.with_extension("png"))?;
+        }
+    }
+    let html = dir.join("report.html");
+    write_atomic(&html, report.html.as_bytes())?;
+    Ok(html)
+}
+
+/// Loads, builds and writes in one call, as `candor report` and the end of
+/// `candor run` do.
+pub fn generate(dir: &Path, opts: &ReportOptions) -> Result<PathBuf> {
+    let results = Results::load(dir)?;
+    let report = build(&results, opts)?;
+    write(&results, &report, opts)
+}

@@ -1,0 +1,364 @@
+//! The report's three summary tables: every metric with its interval and
+//! change from raw; each family's medians across datasets; each dataset's
+//! best family before and after calibration.
+
+use super::{test_over_train, Results};
+use crate::metrics::Metric;
+use crate::stats::fold_interval;
+use crate::summary::fold_values;
+use crate::table::{Table, Value};
+use std::collections::BTreeMap;
+
+/// A mean over folds with its 95% interval, and the paired change from the
+/// raw (`none`) row with its own interval.
+#[derive(Debug, Clone, Copy)]
+pub struct Interval {
+    pub mean: f64,
+    pub low: f64,
+    pub high: f64,
+    pub change: f64,
+    pub change_low: f64,
+    pub change_high: f64,
+}
+
+/// Key: (dataset, family, method, metric).
+pub type Intervals = BTreeMap<(String, String, String, String), Interval>;
+
+/// How far a value is from the ideal, so smaller is always better: the
+/// value for errors, its negative for scores, the distance from 1 for the
+/// calibration slope and from 0 for the other signed quantities. p-values
+/// and the outcome's own uncertainty are not qualities and rank as NaN.
+pub fn badness(metric: &Metric, v: f64) -> f64 {
+    match (metric.higher_is_better, metric.name) {
+        (Some(false), _) => v,
+        (Some(true), _) => -v,
+        (None, "calibration_slope") => (v - 1.0).abs(),
+        (None, "calibration_gap" | "calibration_intercept" | "spiegelhalter_z") => v.abs(),
+        _ => f64::NAN,
+    }
+}
+
+/// Intervals for every (dataset, family, method, metric) in the results.
+pub fn intervals(results: &Results) -> Intervals {
+    let mut out = BTreeMap::new();
+    for d in &results.exp.datasets {
+        for f in &results.exp.families {
+            let cells = results.cells(&d.name, &f.name);
+            let ratio = test_over_train(&cells);
+            for metric in &results.exp.metrics {
+                let raw = fold_values(&cells, "none", metric);
+                for method in &results.exp.methods {
+                    let v = fold_values(&cells, method, metric);
+                    let (mean, low, high) = interval(&v, ratio);
+                    let diff: Vec<f64> = v.iter().zip(&raw).map(|(a, b)| a - b).collect();
+                    let (change, change_low, change_high) = interval(&diff, ratio);
+                    out.insert(
+                        (
+                            d.name.clone(),
+                            f.name.clone(),
+                            method.clone(),
+                            metric.clone(),
+                        ),
+                        Interval {
+                            mean,
+                            low,
+                            high,
+                            change,
+                            change_low,
+                            change_high,
+                        },
+                    );
+                }
+            }
+        }
+    }
+    out
+}
+
+fn interval(v: &[f64], ratio: f64) -> (f64, f64, f64) {
+    if v.is_empty() || v.iter().any(|x| !x.is_finite()) {
+        return (f64::NAN, f64::NAN, f64::NAN);
+    }
+    fold_interval(v, ratio)
+}
+
+/// The strategy a method used on a (dataset, family), from its first cell.
+fn strategy(results: &Results, dataset: &str, family: &str, method: &str) -> String {
+    results
+        .cells(dataset, family)
+        .iter()
+        .find_map(|c| c.results.iter().find(|r| r.method == method))
+        .map(|r| r.strategy.clone())
+        .unwrap_or_default()
+}
+
+fn bins_note(results: &Results) -> String {
+    let e = &results.exp.evaluation;
+    format!(
+        "Binned metrics use {} equal-width bins (ECE, MCE, reliability) or {} equal-mass groups (Hosmer-Lemeshow) in every row; binary rows score the positive class, multiclass rows the top label.",
+        e.bins, e.hl_groups
+    )
+}
+
+fn interval_note(results: &Results) -> String {
+    let e = &results.exp.evaluation;
+    format!(
+        "Intervals: 95% over the {} x {} outer folds, Student's t with Nadeau & Bengio's corrected variance (1/J + n_test/n_train) s^2, because folds share training rows; a change is paired fold by fold against the raw row (`none`).",
+        e.repeats, e.outer_folds
+    )
+}
+
+/// Per (dataset, family, method, metric): mean, interval and change.
+pub fn metric_table(results: &Results, intervals: &Intervals) -> Table {
+    let mut t = Table::new(
+        "metrics",
+        "Every metric per dataset, family and method, with 95% intervals and the change from raw",
+        &[
+            "dataset",
+            "family",
+            "method",
+            "strategy",
+            "metric",
+            "mean",
+            "low",
+            "high",
+            "change",
+            "change_low",
+            "change_high",
+        ],
+    );
+    t.notes.push(interval_note(results));
+    t.notes.push(bins_note(results));
+    t.notes.push("Empty values: the family or method failed, or the metric was undefined, in at least one fold.".into());
+    for d in &results.exp.datasets {
+        for f in &results.exp.families {
+            for method in &results.exp.methods {
+                let s = strategy(results, &d.name, &f.name, method);
+                for metric in &results.exp.metrics {
+                    let key = (
+                        d.name.clone(),
+                        f.name.clone(),
+                        method.clone(),
+                        metric.clone(),
+                    );
+                    let Some(i) = intervals.get(&key) else {
+                        continue;
+                    };
+                    t.rows.push(vec![
+                        d.name.as_str().into(),
+                        f.name.as_str().into(),
+                        method.as_str().into(),
+                        s.as_str().into(),
+                        metric.as_str().into(),
+                        i.mean.into(),
+                        i.low.into(),
+                        i.high.into(),
+                        i.change.into(),
+                        i.change_low.into(),
+                        i.change_high.into(),
+                    ]);
+                }
+            }
+        }
+    }
+    t
+}
+
+/// The mean over folds, NaN if any fold is missing.
+fn mean(results: &Results, dataset: &str, family: &str, method: &str, metric: &str) -> f64 {
+    let v = fold_values(&results.cells(dataset, family), method, metric);
+    if v.is_empty() {
+        return f64::NAN;
+    }
+    v.iter().sum::<f64>() / v.len() as f64
+}
+
+/// Median of the finite values; NaN if there are none.
+fn median(values: &[f64]) -> f64 {
+    let finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
+    if finite.is_empty() {
+        f64::NAN
+    } else {
+        crate::math::median(&finite)
+    }
+}
+
+fn distinct(values: impl Iterator<Item = String>) -> String {
+    let mut v: Vec<String> = values.filter(|s| !s.is_empty()).collect();
+    v.sort();
+    v.dedup();
+    v.join("; ")
+}
+
+/// Per family and method: medians across datasets before and after, and
+/// the method with the best median of the chosen metric.
+pub fn family_table(results: &Results, metric: &Metric) -> Table {
+    let has = |m: &str| results.exp.metrics.iter().any(|x| x == m);
+    let mut t = Table::new(
+        "families",
+        "Each family across datasets: median ECE and Brier score after each method",
+        &[
+            "family",
+            "method",
+            "datasets",
+            "median_ece",
+            "median_ece_change",
+            "median_brier",
+            "median_brier_change",
+            &format!("median_{}", metric.name),
+            "best",
+            "strategies",
+        ],
+    );
+    t.notes.push(format!(
+        "Medians over datasets of the fold means; `none` is the raw model, changes are medians of the per-dataset change from it. `best` marks each family's method with the best median {} ({}).",
+        metric.name,
+        direction(metric)
+    ));
+    t.notes.push(bins_note(results));
+    for f in &results.exp.families {
+        let mut rows = Vec::new();
+        let mut scores = Vec::new();
+        for method in &results.exp.methods {
+            let per = |m: &str| -> Vec<f64> {
+                if !has(m) {
+                    return Vec::new();
+                }
+                results
+                    .exp
+                    .datasets
+                    .iter()
+                    .map(|d| mean(results, &d.name, &f.name, method, m))
+                    .collect()
+            };
+            let change = |m: &str| -> Vec<f64> {
+                let after = per(m);
+                let before: Vec<f64> = if !has(m) {
+                    Vec::new()
+                } else {
+                    results
+                        .exp
+                        .datasets
+                        .iter()
+                        .map(|d| mean(results, &d.name, &f.name, "none", m))
+                        .collect()
+                };
+                after.iter().zip(&before).map(|(a, b)| a - b).collect()
+            };
+            let chosen = median(&per(metric.name));
+            let n = per(metric.name).iter().filter(|v| v.is_finite()).count();
+            scores.push(badness(metric, chosen));
+            let strategies = distinct(
+                results
+                    .exp
+                    .datasets
+                    .iter()
+                    .map(|d| strategy(results, &d.name, &f.name, method)),
+            );
+            rows.push(vec![
+                Value::from(f.name.as_str()),
+                method.as_str().into(),
+                n.into(),
+                median(&per("ece")).into(),
+                median(&change("ece")).into(),
+                median(&per("brier")).into(),
+                median(&change("brier")).into(),
+                chosen.into(),
+                "".into(),
+                strategies.into(),
+            ]);
+        }
+        if let Some(best) = argmin(&scores) {
+            rows[best][8] = "best".into();
+        }
+        t.rows.extend(rows);
+    }
+    if t.rows
+        .iter()
+        .any(|r| matches!(&r[9], Value::Text(s) if s.contains(';')))
+    {
+        t.notes.push("Rows whose `strategies` lists more than one value pool binary and multiclass datasets, which the method handles differently.".into());
+    }
+    t
+}
+
+/// "lower is better" and its kin, for notes.
+pub fn direction(metric: &Metric) -> &'static str {
+    match (metric.higher_is_better, metric.name) {
+        (Some(false), _) => "lower is better",
+        (Some(true), _) => "higher is better",
+        (None, "calibration_slope") => "closer to 1 is better",
+        _ => "closer to 0 is better",
+    }
+}
+
+/// Index of the smallest finite value; the first on ties.
+fn argmin(v: &[f64]) -> Option<usize> {
+    v.iter()
+        .enumerate()
+        .filter(|(_, x)| x.is_finite())
+        .fold(None, |acc: Option<(usize, f64)>, (i, &x)| match acc {
+            Some((_, b)) if b <= x => acc,
+            _ => Some((i, x)),
+        })
+        .map(|(i, _)| i)
+}
+
+/// Per dataset: the best family raw, and the best (family, method) pair.
+pub fn dataset_table(results: &Results, metric: &Metric) -> Table {
+    let m = metric.name;
+    let mut t = Table::new(
+        "datasets",
+        &format!("Each dataset: the best family before and after calibration, by {m}"),
+        &[
+            "dataset",
+            "classes",
+            "best_raw_family",
+            &format!("raw_{m}"),
+            "best_calibrated",
+            &format!("calibrated_{m}"),
+            "strategy",
+        ],
+    );
+    t.notes.push(format!(
+        "Best = best fold mean of {m} ({}); a pair whose family or method failed in any fold is not eligible.",
+        direction(metric)
+    ));
+    for d in &results.exp.datasets {
+        let raw: Vec<f64> = results
+            .exp
+            .families
+            .iter()
+            .map(|f| mean(results, &d.name, &f.name, "none", m))
+            .collect();
+        let mut pairs = Vec::new();
+        let mut values = Vec::new();
+        for f in &results.exp.families {
+            for method in results.exp.methods.iter().filter(|x| *x != "none") {
+                pairs.push((f.name.as_str(), method.as_str()));
+                values.push(mean(results, &d.name, &f.name, method, m));
+            }
+        }
+        let score = |v: &[f64]| v.iter().map(|&x| badness(metric, x)).collect::<Vec<f64>>();
+        let best_raw = argmin(&score(&raw));
+        let best_cal = argmin(&score(&values));
+        t.rows.push(vec![
+            d.name.as_str().into(),
+            results.classes(&d.name).into(),
+            best_raw.map_or("–".into(), |i| {
+                results.exp.families[i].name.as_str().into()
+            }),
+            best_raw.map_or(f64::NAN, |i| raw[i]).into(),
+            best_cal.map_or("–".into(), |i| {
+                format!("{} + {}", pairs[i].0, pairs[i].1).into()
+            }),
+            best_cal.map_or(f64::NAN, |i| values[i]).into(),
+            best_cal
+                .map_or(String::new(), |i| {
+                    strategy(results, &d.name, pairs[i].0, pairs[i].1)
+                })
+                .into(),
+        ]);
+    }
+    t
+}
