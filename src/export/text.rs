@@ -28,10 +28,13 @@ impl Exporter for Text {
                     .unwrap_or(0)
             })
             .collect();
+        // Text columns align left; numbers, and number-like text such as
+        // "0.0421*", align right.
         let left = |c: usize| {
-            t.rows
-                .first()
-                .is_some_and(|r| matches!(r.get(c), Some(Value::Text(_))))
+            t.rows.first().is_some_and(|r| match r.get(c) {
+                Some(Value::Text(s)) => s.trim_end_matches(['*', ' ']).parse::<f64>().is_err(),
+                _ => false,
+            })
         };
         let pad = |s: &str, c: usize| {
             let fill = " ".repeat(widths[c] - s.chars().count());
