@@ -13,6 +13,7 @@ pub mod data;
 pub mod error;
 pub mod export;
 pub mod folds;
+pub mod gate;
 pub mod glm;
 pub mod learner;
 pub mod manifest;

@@ -59,6 +59,24 @@ enum Command {
         #[arg(long)]
         png: bool,
     },
+    /// Check a results folder against a baseline's rules: exit 0 when every
+    /// rule holds, 1 on a regression, 2 on a usage or input error.
+    Gate {
+        /// The results folder `candor run` wrote.
+        results: PathBuf,
+        /// The baseline file (TOML) with the rules and accepted values.
+        #[arg(long)]
+        baseline: PathBuf,
+        /// Write the current values into the baseline instead of checking.
+        #[arg(long)]
+        update: bool,
+        /// Also write JUnit XML here, one test case per rule.
+        #[arg(long)]
+        junit: Option<PathBuf>,
+        /// Also write a Markdown summary here (for a CI job summary).
+        #[arg(long)]
+        markdown: Option<PathBuf>,
+    },
     /// Check a manifest and its datasets without training anything.
     Check {
         /// The experiment manifest (TOML).
@@ -91,6 +109,17 @@ enum ListWhat {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    if let Command::Gate { .. } = cli.command {
+        // The gate's contract: 2 for usage and input errors (clap already
+        // exits with 2 on bad arguments).
+        return match execute(cli.command) {
+            Ok(code) => code,
+            Err(e) => {
+                eprintln!("error: {e}");
+                ExitCode::from(2)
+            }
+        };
+    }
     match execute(cli.command) {
         Ok(code) => code,
         Err(e) => {
@@ -210,6 +239,37 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             let html = candor::report::generate(&results, &ReportOptions { metric, png })?;
             let _ = writeln!(text, "report: {}", html.display());
             Ok(ExitCode::SUCCESS)
+        }
+        Command::Gate {
+            results,
+            baseline,
+            update,
+            junit,
+            markdown,
+        } => {
+            let loaded = candor::report::Results::load(&results)?;
+            if update {
+                candor::gate::update(&loaded, &baseline)?;
+                let _ = writeln!(
+                    text,
+                    "baseline updated: {}; review and commit the diff",
+                    baseline.display()
+                );
+                return Ok(ExitCode::SUCCESS);
+            }
+            let outcome = candor::gate::check(&loaded, &baseline)?;
+            if let Some(path) = junit {
+                candor::store::write_atomic(&path, candor::gate::junit(&outcome).as_bytes())?;
+            }
+            if let Some(path) = markdown {
+                candor::store::write_atomic(&path, candor::gate::markdown(&outcome).as_bytes())?;
+            }
+            text.push_str(&candor::gate::human(&outcome));
+            Ok(if outcome.passed() {
+                ExitCode::SUCCESS
+            } else {
+                ExitCode::from(1)
+            })
         }
         Command::Check {
             manifest: path,

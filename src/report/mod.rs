@@ -12,6 +12,7 @@ mod tables;
 
 pub use diagnosis::{diagnose, Diagnosis, Shape};
 pub use ranking::Ranking;
+pub use tables::{intervals, Interval};
 
 use crate::error::{Error, Result};
 use crate::export::TABLE_FORMATS;
