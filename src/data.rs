@@ -279,6 +279,15 @@ fn encode_target(
     classes.sort();
     classes.dedup();
     sort_labels(&mut classes);
+    // More than 100 classes, each seen about twice or less on average, is a
+    // continuous value or an identifier, not class labels.
+    if classes.len() > 100 && classes.len() * 2 > values.len() {
+        return Err(Error::Data(format!(
+            "{file}: the target `{target}` has {} distinct values in {} rows, so it looks like a measurement or an identifier rather than class labels; choose a categorical target column (or bin the values into classes first)",
+            classes.len(),
+            values.len()
+        )));
+    }
     match classes.len() {
         1 => {
             return Err(Error::Data(format!(

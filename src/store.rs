@@ -59,6 +59,10 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
 /// The results folder of one experiment.
 pub struct Store {
     pub dir: PathBuf,
+    /// Held for the life of the run so a second run on the same folder is
+    /// refused instead of interleaving its writes. An OS file lock, so a
+    /// killed run leaves nothing stale behind and a rerun can resume.
+    _lock: std::fs::File,
 }
 
 impl Store {
@@ -75,8 +79,26 @@ impl Store {
         let probe = dir.join(format!(".write-probe.{}", std::process::id()));
         std::fs::write(&probe, b"").map_err(fail)?;
         std::fs::remove_file(&probe).map_err(fail)?;
+        let lock_path = dir.join(".candor.lock");
+        let lock = std::fs::OpenOptions::new()
+            .create(true)
+            .truncate(false)
+            .write(true)
+            .open(&lock_path)
+            .map_err(fail)?;
+        match lock.try_lock() {
+            Ok(()) => {}
+            Err(std::fs::TryLockError::WouldBlock) => {
+                return Err(Error::Io(format!(
+                    "{}: another candor run is writing to this results folder; wait for it to finish, or choose another folder with --out",
+                    dir.display()
+                )))
+            }
+            Err(std::fs::TryLockError::Error(e)) => return Err(fail(e)),
+        }
         Ok(Store {
             dir: dir.to_path_buf(),
+            _lock: lock,
         })
     }
 

@@ -79,7 +79,8 @@ fn results_are_byte_identical_for_one_thread_and_several() {
     assert!(one.failures.is_empty(), "{:?}", one.failures);
     let a = snapshot(&tmp.path().join("one"));
     let b = snapshot(&tmp.path().join("four"));
-    assert_eq!(a.len(), 24 + 3);
+    // 24 cells, the three tables and the (empty) lock file.
+    assert_eq!(a.len(), 24 + 3 + 1);
     assert!(a == b, "result files differ between 1 and 4 threads");
 }
 
@@ -119,7 +120,8 @@ fn a_rerun_after_interruption_recomputes_only_what_is_missing() {
 }
 
 #[test]
-fn a_killed_process_leaves_no_partial_tables_and_resumes_to_the_same_bytes() {
+fn a_killed_process_leaves_no_partial_tables_refuses_a_second_writer_and_resumes_to_the_same_bytes()
+{
     let tmp = tempfile::tempdir().unwrap();
     let manifest = tmp.path().join("m.toml");
     std::fs::write(&manifest, SMALL.replace("repeats = 2", "repeats = 8")).unwrap();
@@ -145,6 +147,12 @@ fn a_killed_process_leaves_no_partial_tables_and_resumes_to_the_same_bytes() {
     while count() < 3 && start.elapsed() < Duration::from_secs(120) {
         std::thread::sleep(Duration::from_millis(1));
     }
+    // A second run on the same folder while the first is writing is
+    // refused, with a clear message, and changes nothing.
+    let second = Command::new(bin).args(args(&out)).output().unwrap();
+    let err = String::from_utf8_lossy(&second.stderr);
+    assert!(!second.status.success());
+    assert!(err.contains("another candor run is writing"), "{err}");
     child.kill().unwrap();
     let status = child.wait().unwrap();
     assert!(
