@@ -11,7 +11,7 @@
 //! rate. There is no sampling, so results are deterministic. F (binary) or
 //! the per-class scores (multiclass) are the native score.
 
-use super::tree::{descend, partition, Binned, Node, MAX_BINS};
+use super::tree::{descend, partition, Binned, Node};
 use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
 use crate::error::Result;
 use crate::params::{ParamKind, ParamSpec, ParamValue};
@@ -90,44 +90,81 @@ impl RegressionTree {
     }
 }
 
+/// Gradient, Hessian and row count per bin, for every feature, laid out
+/// feature after feature.
+type Histogram = Vec<(f64, f64, u32)>;
+
+/// Adds the rows' gradients and Hessians into a zeroed histogram.
+fn fill(
+    data: &Binned,
+    offsets: &[usize],
+    rows: &[u32],
+    g: &[f64],
+    h: &[f64],
+    hist: &mut Histogram,
+) {
+    // Gather once: the feature loop below then reads them in order.
+    let gh: Vec<(f64, f64)> = rows
+        .iter()
+        .map(|&r| (g[r as usize], h[r as usize]))
+        .collect();
+    for f in 0..data.d() {
+        let part = &mut hist[offsets[f]..offsets[f + 1]];
+        for (&r, &(gr, hr)) in rows.iter().zip(&gh) {
+            let e = &mut part[data.code(f, r as usize)];
+            e.0 += gr;
+            e.1 += hr;
+            e.2 += 1;
+        }
+    }
+}
+
 impl Boosting {
     /// Grows one regression tree on gradients `g` and Hessians `h`, and
-    /// returns it with the value it gives each training row.
-    fn grow(&self, data: &Binned, g: &[f64], h: &[f64]) -> (RegressionTree, Vec<f64>) {
+    /// returns it with the value it gives each training row. A child's
+    /// histogram is built from its rows only when it is the smaller child;
+    /// the larger one's is the parent's minus the smaller's (LightGBM's
+    /// subtraction trick), which halves the work below the root.
+    fn grow(
+        &self,
+        data: &Binned,
+        offsets: &[usize],
+        g: &[f64],
+        h: &[f64],
+    ) -> (RegressionTree, Vec<f64>) {
         let n = data.n();
+        let total = offsets[data.d()];
         let mut rows: Vec<u32> = (0..n as u32).collect();
         let mut nodes = vec![Node::Leaf(0.0)];
         let mut fitted = vec![0.0; n];
-        let mut hist = vec![(0.0f64, 0.0f64, 0usize); MAX_BINS];
-        let mut stack = vec![(0usize, 0usize, n, 0usize)];
-        while let Some((node, start, end, depth)) = stack.pop() {
+        let can_split =
+            |len: usize, depth: usize| depth < self.max_depth && len >= 2 * self.min_samples_leaf;
+        let mut root = vec![(0.0, 0.0, 0u32); total];
+        if can_split(n, 0) {
+            fill(data, offsets, &rows, g, h, &mut root);
+        }
+        let mut stack: Vec<(usize, usize, usize, usize, Histogram)> = vec![(0, 0, n, 0, root)];
+        while let Some((node, start, end, depth, hist)) = stack.pop() {
             let slice = &rows[start..end];
             let (sg, sh): (f64, f64) = slice.iter().fold((0.0, 0.0), |(a, b), &r| {
                 (a + g[r as usize], b + h[r as usize])
             });
             let parent = sg * sg / (sh + self.l2);
             let mut best: Option<(f64, usize, usize)> = None;
-            if depth < self.max_depth && slice.len() >= 2 * self.min_samples_leaf {
+            if can_split(slice.len(), depth) {
                 for f in 0..data.d() {
-                    let bins = data.bins(f);
-                    if bins < 2 {
+                    let part = &hist[offsets[f]..offsets[f + 1]];
+                    if part.len() < 2 {
                         continue;
                     }
-                    hist[..bins].fill((0.0, 0.0, 0));
-                    for &r in slice {
-                        let e = &mut hist[data.code(f, r as usize)];
-                        e.0 += g[r as usize];
-                        e.1 += h[r as usize];
-                        e.2 += 1;
-                    }
                     let (mut lg, mut lh, mut lc) = (0.0, 0.0, 0usize);
-                    for (b, &(bg, bh, bc)) in hist[..bins - 1].iter().enumerate() {
+                    for (b, &(bg, bh, bc)) in part[..part.len() - 1].iter().enumerate() {
                         if bc == 0 {
                             continue;
                         }
                         lg += bg;
                         lh += bh;
-                        lc += bc;
+                        lc += bc as usize;
                         if lc < self.min_samples_leaf {
                             continue;
                         }
@@ -161,8 +198,33 @@ impl Boosting {
                         left: left as u32,
                         right: left as u32 + 1,
                     };
-                    stack.push((left + 1, start + mid, end, depth + 1));
-                    stack.push((left, start, start + mid, depth + 1));
+                    let (l_len, r_len) = (mid, end - start - mid);
+                    let (l_split, r_split) =
+                        (can_split(l_len, depth + 1), can_split(r_len, depth + 1));
+                    let (mut lh, mut rh) = (Vec::new(), Vec::new());
+                    if l_split || r_split {
+                        let mut small = vec![(0.0, 0.0, 0u32); total];
+                        let small_is_left = l_len <= r_len;
+                        let small_rows = if small_is_left {
+                            &rows[start..start + mid]
+                        } else {
+                            &rows[start + mid..end]
+                        };
+                        fill(data, offsets, small_rows, g, h, &mut small);
+                        let mut large = hist;
+                        for (e, s) in large.iter_mut().zip(&small) {
+                            e.0 -= s.0;
+                            e.1 -= s.1;
+                            e.2 -= s.2;
+                        }
+                        (lh, rh) = if small_is_left {
+                            (small, large)
+                        } else {
+                            (large, small)
+                        };
+                    }
+                    stack.push((left + 1, start + mid, end, depth + 1, rh));
+                    stack.push((left, start, start + mid, depth + 1, lh));
                 }
             }
         }
@@ -191,6 +253,10 @@ impl Learner for Boosting {
     ) -> Result<Box<dyn Model>> {
         let n = y.len();
         let data = Binned::new(x);
+        let mut offsets = vec![0usize];
+        for f in 0..data.d() {
+            offsets.push(offsets[f] + data.bins(f));
+        }
         let outputs = if n_classes == 2 { 1 } else { n_classes };
         let mut counts = vec![0.0f64; n_classes];
         for &c in y {
@@ -218,7 +284,7 @@ impl Learner for Boosting {
                     g[i] = pk - f64::from(u8::from(y[i] == class));
                     h[i] = (pk * (1.0 - pk)).max(1e-16);
                 }
-                let (tree, fitted) = self.grow(&data, &g, &h);
+                let (tree, fitted) = self.grow(&data, &offsets, &g, &h);
                 for i in 0..n {
                     f[[i, k]] += fitted[i];
                 }
