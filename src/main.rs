@@ -77,6 +77,66 @@ enum Command {
         #[arg(long)]
         markdown: Option<PathBuf>,
     },
+    /// Score predictions made elsewhere: every metric, the diagnosis, the
+    /// reliability diagrams, and every calibration method cross-fitted over
+    /// the rows, written as a results folder with its report.
+    Score {
+        /// CSV of true labels and predicted probabilities.
+        predictions: PathBuf,
+        #[command(flatten)]
+        layout: LayoutArgs,
+        /// Cross-fitting folds.
+        #[arg(long, default_value_t = 5)]
+        folds: usize,
+        /// Seed of the fold split and the bootstrap.
+        #[arg(long, default_value_t = 20261202)]
+        seed: u64,
+        /// Equal-width bins for ECE and the reliability diagrams.
+        #[arg(long, default_value_t = 15)]
+        bins: usize,
+        /// Bootstrap resamples per fold for the ECE and Brier intervals.
+        #[arg(long, default_value_t = 200)]
+        bootstrap: usize,
+        /// The model's name in the tables.
+        #[arg(long, default_value = "model")]
+        model: String,
+        /// Results folder [default: results/score-<file name>].
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Print the predictions' metrics as JSON on standard output.
+        #[arg(long)]
+        json: bool,
+        /// Fit this method on every row and save it (with --save).
+        #[arg(long, requires = "save")]
+        fit: Option<String>,
+        /// Where --fit writes the calibration map (JSON).
+        #[arg(long, requires = "fit")]
+        save: Option<PathBuf>,
+    },
+    /// Apply a saved calibration map to predictions; writes the CSV with a
+    /// `calibrated_<class>` column per class added.
+    Apply {
+        /// The map `candor score --fit METHOD --save FILE` wrote.
+        map: PathBuf,
+        /// CSV of predicted probabilities (a label column is optional).
+        predictions: PathBuf,
+        #[command(flatten)]
+        layout: LayoutArgs,
+        /// Output CSV [default: standard output].
+        #[arg(long)]
+        out: Option<PathBuf>,
+    },
+    /// Write the demo scenario's synthetic predictions (see the README).
+    Demo {
+        /// Rows to generate.
+        #[arg(long, default_value_t = 5000)]
+        rows: usize,
+        #[arg(long, default_value_t = 7)]
+        seed: u64,
+        /// Output CSV.
+        #[arg(long, default_value = "demo-deliveries.csv")]
+        out: PathBuf,
+    },
     /// Check a manifest and its datasets without training anything.
     Check {
         /// The experiment manifest (TOML).
@@ -93,6 +153,48 @@ enum Command {
         #[arg(long)]
         datasets: Option<PathBuf>,
     },
+}
+
+/// How a predictions CSV is laid out.
+#[derive(clap::Args)]
+struct LayoutArgs {
+    /// The true-label column.
+    #[arg(long, default_value = "label")]
+    label: String,
+    /// A column of segments to report on separately, e.g. a region.
+    #[arg(long)]
+    group: Option<String>,
+    /// The positive label of a binary task [default: `1` or `true`].
+    #[arg(long)]
+    positive: Option<String>,
+    /// Probability columns, comma-separated [default: every other column].
+    #[arg(long, value_delimiter = ',')]
+    columns: Option<Vec<String>>,
+    /// Largest allowed distance of a row's probability sum from 1.
+    #[arg(long, default_value_t = 1e-3)]
+    tolerance: f64,
+}
+
+impl LayoutArgs {
+    fn layout(self, label_required: bool, path: &std::path::Path) -> candor::predictions::Layout {
+        // `apply` takes the label column only if the file has one.
+        let has_label = label_required
+            || std::fs::read_to_string(path)
+                .ok()
+                .and_then(|t| {
+                    t.lines()
+                        .next()
+                        .map(|h| h.split(',').any(|c| c.trim() == self.label))
+                })
+                .unwrap_or(false);
+        candor::predictions::Layout {
+            label: has_label.then_some(self.label),
+            group: self.group,
+            positive: self.positive,
+            columns: self.columns,
+            tolerance: self.tolerance,
+        }
+    }
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -270,6 +372,102 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             } else {
                 ExitCode::from(1)
             })
+        }
+        Command::Score {
+            predictions,
+            layout,
+            folds,
+            seed,
+            bins,
+            bootstrap,
+            model,
+            out,
+            json,
+            fit,
+            save,
+        } => {
+            if folds < 2 {
+                return Err(candor::Error::Manifest("--folds must be at least 2".into()));
+            }
+            if let Some(m) = fit
+                .as_deref()
+                .filter(|m| candor::calibrate::find(m).is_none())
+            {
+                return Err(candor::Error::Manifest(format!(
+                    "--fit {m}: unknown method; choose one of: {}",
+                    candor::calibrate::known_methods()
+                )));
+            }
+            let stem = predictions
+                .file_stem()
+                .map_or("predictions".into(), |s| s.to_string_lossy().to_string());
+            let out_dir =
+                out.unwrap_or_else(|| PathBuf::from("results").join(format!("score-{stem}")));
+            let opts = candor::score::ScoreOptions {
+                layout: layout.layout(true, &predictions),
+                folds,
+                seed,
+                bins,
+                bootstrap,
+                model,
+                out_dir: out_dir.clone(),
+            };
+            let scored = candor::score::score(&predictions, &opts)?;
+            let html = candor::report::generate(&out_dir, &ReportOptions::default())?;
+            if let (Some(method), Some(file)) = (fit, save) {
+                candor::score::save_fit(&scored.predictions, &method, &file)?;
+                eprintln!("saved the {method} map to {}", file.display());
+            }
+            if json {
+                let v = candor::score::metrics_json(&scored.predictions, bins);
+                let _ = writeln!(
+                    text,
+                    "{}",
+                    serde_json::to_string_pretty(&v).unwrap_or_default()
+                );
+            } else {
+                let summary = candor::summary::summarise(&scored.experiment, &scored.records);
+                for metric in ["ece", "brier"] {
+                    if let Some(t) = summary.by_method(metric) {
+                        text.push_str(&Text.render(&t));
+                        text.push('\n');
+                    }
+                }
+                let _ = writeln!(
+                    text,
+                    "results in {}; report: {}",
+                    out_dir.display(),
+                    html.display()
+                );
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Apply {
+            map,
+            predictions,
+            layout,
+            out,
+        } => {
+            let csv =
+                candor::score::apply(&map, &predictions, &layout.layout(false, &predictions))?;
+            match out {
+                Some(path) => candor::store::write_atomic(&path, csv.as_bytes())?,
+                None => text.push_str(&csv),
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Demo { rows, seed, out } => {
+            let demo = candor::demo::generate(rows, seed);
+            candor::store::write_atomic(&out, demo.csv().as_bytes())?;
+            let _ = writeln!(
+                text,
+                "{} deliveries written to {}; the model's true ECE ({} bins) is {:.4}",
+                rows,
+                out.display(),
+                15,
+                candor::demo::true_ece(15)
+            );
+            Ok(ExitCode::SUCCESS)
         }
         Command::Check {
             manifest: path,

@@ -15,8 +15,9 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use toml::Spanned;
 
-/// A checked experiment, ready to run.
-#[derive(Debug, Clone, Serialize)]
+/// A checked experiment, ready to run. It is recorded in `run.json`, and
+/// read back from there by the report, so a results folder describes itself.
+#[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct Experiment {
     /// Names the results folder and every report.
     pub name: String,
@@ -52,7 +53,7 @@ impl ManifestSource {
 }
 
 /// The evaluation protocol.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 pub struct Evaluation {
     /// K in the outer stratified K-fold.
     pub outer_folds: usize,
@@ -73,7 +74,7 @@ pub struct Evaluation {
 }
 
 /// Where a dataset's CSV comes from.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum DataSource {
     /// An entry of the bundled catalog, by id.
@@ -83,7 +84,7 @@ pub enum DataSource {
 }
 
 /// One dataset entry.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct DatasetSpec {
     /// The label used in tables and result paths.
     pub name: String,
@@ -99,13 +100,15 @@ pub struct DatasetSpec {
 }
 
 /// One model family entry.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct FamilySpec {
     /// The label used in tables and result paths.
     pub name: String,
     /// The registry kind, e.g. `logistic`.
     pub kind: String,
-    /// Checked parameters with defaults filled in.
+    /// Checked parameters with defaults filled in. Not read back from
+    /// `run.json`: JSON cannot tell an integer parameter from a float one.
+    #[serde(skip_deserializing)]
     pub params: Params,
 }
 

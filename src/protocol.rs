@@ -109,23 +109,51 @@ pub fn run_cell(
 
     let test = fit_and_score(table, plan.train, plan.test, learner, k, plan.model_seed)?;
 
-    let results = methods
+    Ok(evaluate_methods(
+        &oof,
+        &y_train,
+        &test,
+        &y_test,
+        methods,
+        metrics,
+        options,
+        (plan.bootstrap, plan.bootstrap_seed),
+    ))
+}
+
+/// Fits every method on held-out scores `oof` (labels `y_oof`), applies it
+/// to `test`, and measures the result against `y_test`; `bootstrap` is the
+/// count and seed of the resamples for the intervals. A method that cannot
+/// be fitted is recorded with its error.
+#[allow(clippy::too_many_arguments)]
+pub fn evaluate_methods(
+    oof: &Scores,
+    y_oof: &[usize],
+    test: &Scores,
+    y_test: &[usize],
+    methods: &[(String, Box<dyn Calibrator>)],
+    metrics: &[&Metric],
+    options: &MetricOptions,
+    bootstrap: (usize, u64),
+) -> Vec<MethodResult> {
+    let k = test.proba.ncols();
+    methods
         .iter()
         .map(|(name, method)| {
             let strategy = method.strategy(k).to_string();
-            match method.fit(&oof, &y_train, k) {
+            match method.fit(oof, y_oof, k) {
                 Ok(fitted) => {
-                    let p = fitted.apply(&test);
-                    let fc = Forecasts::new(p.view(), &y_test);
+                    let p = fitted.apply(test);
+                    let fc = Forecasts::new(p.view(), y_test);
                     let boot: Vec<&Metric> = metrics
                         .iter()
                         .copied()
                         .filter(|m| crate::metrics::BOOTSTRAPPED.contains(&m.name))
                         .collect();
                     let fns: Vec<MetricFn> = boot.iter().map(|m| m.compute).collect();
-                    let seed = derive_seed(plan.bootstrap_seed, &["bootstrap", name]);
-                    let bounds = if plan.bootstrap > 0 {
-                        intervals(&fc, &fns, options, plan.bootstrap, seed)
+                    let seed = derive_seed(bootstrap.1, &["bootstrap", name]);
+                    let bounds = if bootstrap.0 > 0 {
+                        intervals(&fc, &fns, options, bootstrap.0, seed)
                     } else {
                         Vec::new()
                     };
@@ -148,7 +176,7 @@ pub fn run_cell(
                             })
                             .collect(),
                         reliability: reliability(&fc, options.bins),
-                        details: fitted.details(&test),
+                        details: fitted.details(test),
                         warnings: fitted.warnings(),
                         error: None,
                     }
@@ -165,8 +193,7 @@ pub fn run_cell(
                 },
             }
         })
-        .collect();
-    Ok(results)
+        .collect()
 }
 
 /// Preprocesses on `fit_rows`, trains, and scores `score_rows`.

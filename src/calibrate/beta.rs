@@ -97,6 +97,14 @@ impl BetaMap {
 }
 
 impl BinaryMap for BetaMap {
+    fn export(&self) -> Option<super::MapSpec> {
+        Some(super::MapSpec::Beta {
+            a: self.a,
+            b: self.b,
+            c: self.c,
+        })
+    }
+
     fn apply(&self, s: f64) -> f64 {
         let s = s.clamp(CLIP, 1.0 - CLIP);
         crate::math::sigmoid(self.c + self.a * s.ln() - self.b * (1.0 - s).ln())

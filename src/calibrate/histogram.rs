@@ -60,6 +60,13 @@ impl HistogramMap {
 }
 
 impl BinaryMap for HistogramMap {
+    fn export(&self) -> Option<super::MapSpec> {
+        Some(super::MapSpec::Steps {
+            upper: self.boundaries.clone(),
+            y: self.rates.clone(),
+        })
+    }
+
     fn apply(&self, s: f64) -> f64 {
         self.rates[self.boundaries.partition_point(|&b| b < s)]
     }

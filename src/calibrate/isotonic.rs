@@ -80,6 +80,13 @@ pub(crate) fn pool_adjacent_violators(
 }
 
 impl BinaryMap for IsotonicMap {
+    fn export(&self) -> Option<super::MapSpec> {
+        Some(super::MapSpec::PiecewiseLinear {
+            x: self.x.clone(),
+            y: self.y.clone(),
+        })
+    }
+
     fn apply(&self, s: f64) -> f64 {
         let n = self.x.len();
         if s <= self.x[0] {

@@ -8,6 +8,7 @@
 //! a method is one new file plus one line in [`METHODS`].
 
 mod beta;
+mod export;
 mod histogram;
 mod isotonic;
 mod platt;
@@ -20,6 +21,7 @@ use ndarray::Array2;
 use std::collections::BTreeMap;
 
 pub use beta::{Beta, BetaMap};
+pub use export::{CalibrationFile, ClassMap, Exported, MapSpec};
 pub use histogram::{Histogram, HistogramMap};
 pub use isotonic::{Isotonic, IsotonicMap};
 pub use platt::{Platt, PlattMap};
@@ -59,6 +61,12 @@ pub trait BinaryMap: Send {
     fn warning(&self) -> Option<String> {
         None
     }
+
+    /// The map's numbers for a calibration file; `None` for maps that
+    /// need their calibration set at prediction time (Venn-Abers).
+    fn export(&self) -> Option<MapSpec> {
+        None
+    }
 }
 
 /// A calibration method for tasks with any number of classes.
@@ -85,11 +93,17 @@ pub trait Calibration: Send {
     fn details(&self, _scores: &Scores) -> BTreeMap<String, f64> {
         BTreeMap::new()
     }
+
+    /// The calibration as numbers another program can apply, if it can be
+    /// written down without its calibration set.
+    fn export(&self) -> Option<Exported> {
+        None
+    }
 }
 
 /// Settings of the calibration methods, from the manifest's
 /// `[calibration]` table.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct Settings {
     /// Bins of histogram binning.
     pub histogram_bins: usize,
@@ -171,7 +185,7 @@ pub fn known_methods() -> String {
         .join(", ")
 }
 
-struct Identity;
+pub(crate) struct Identity;
 
 impl Calibrator for Identity {
     fn strategy(&self, _n_classes: usize) -> &'static str {
@@ -185,6 +199,10 @@ impl Calibrator for Identity {
 impl Calibration for Identity {
     fn apply(&self, scores: &Scores) -> Array2<f64> {
         scores.proba.clone()
+    }
+
+    fn export(&self) -> Option<Exported> {
+        Some(Exported::Identity)
     }
 }
 
@@ -201,11 +219,15 @@ impl Calibration for Identity {
 pub struct OneVsRest<B>(pub B);
 
 /// The fallback map for a degenerate calibration set.
-struct Constant(f64);
+pub(crate) struct Constant(pub(crate) f64);
 
 impl BinaryMap for Constant {
     fn apply(&self, _: f64) -> f64 {
         self.0
+    }
+
+    fn export(&self) -> Option<MapSpec> {
+        Some(MapSpec::Constant { value: self.0 })
     }
 }
 
@@ -304,11 +326,11 @@ fn column_for(scores: &Scores, input: Input, k: usize, n_classes: usize) -> Vec<
     }
 }
 
-struct FittedOvr {
-    input: Input,
-    maps: Vec<Box<dyn BinaryMap>>,
-    n_classes: usize,
-    warnings: Vec<String>,
+pub(crate) struct FittedOvr {
+    pub(crate) input: Input,
+    pub(crate) maps: Vec<Box<dyn BinaryMap>>,
+    pub(crate) n_classes: usize,
+    pub(crate) warnings: Vec<String>,
 }
 
 impl Calibration for FittedOvr {
@@ -336,6 +358,17 @@ impl Calibration for FittedOvr {
 
     fn warnings(&self) -> Vec<String> {
         self.warnings.clone()
+    }
+
+    fn export(&self) -> Option<Exported> {
+        Some(Exported::Maps {
+            input: self.input,
+            maps: self
+                .maps
+                .iter()
+                .map(|m| m.export())
+                .collect::<Option<_>>()?,
+        })
     }
 
     /// For maps that give intervals: the mean lower and upper bound and the

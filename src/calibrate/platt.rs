@@ -115,6 +115,13 @@ impl PlattMap {
 }
 
 impl BinaryMap for PlattMap {
+    fn export(&self) -> Option<super::MapSpec> {
+        Some(super::MapSpec::Sigmoid {
+            a: self.a,
+            b: self.b,
+        })
+    }
+
     fn apply(&self, score: f64) -> f64 {
         crate::math::sigmoid(-(self.a * score + self.b))
     }

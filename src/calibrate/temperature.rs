@@ -133,10 +133,24 @@ impl Calibrator for Temperature {
     }
 }
 
+/// A temperature calibration from its inverse temperature, for a file
+/// written by [`super::CalibrationFile`].
+pub(crate) fn from_beta(beta: f64, n_classes: usize) -> Box<dyn Calibration> {
+    Box::new(Fitted {
+        beta,
+        n_classes,
+        warnings: Vec::new(),
+    })
+}
+
 impl Calibration for Fitted {
     fn apply(&self, scores: &Scores) -> Array2<f64> {
         let z = logits(scores, self.n_classes) * self.beta;
         crate::learner::softmax_rows(&z)
+    }
+
+    fn export(&self) -> Option<super::Exported> {
+        Some(super::Exported::Temperature(self.beta))
     }
 
     fn warnings(&self) -> Vec<String> {

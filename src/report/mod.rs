@@ -16,7 +16,7 @@ pub use tables::{intervals, Interval};
 
 use crate::error::{Error, Result};
 use crate::export::TABLE_FORMATS;
-use crate::manifest::{self, Experiment, ManifestSource};
+use crate::manifest::{Experiment, ManifestSource};
 use crate::store::{write_atomic, CellRecord};
 use crate::table::Table;
 use std::path::{Path, PathBuf};
@@ -66,15 +66,21 @@ impl Results {
                 run_path.display()
             ))
         })?;
-        let manifest_text = info["manifest"].as_str().unwrap_or_default().to_string();
-        let exp = manifest::parse(ManifestSource {
+        let mut exp: Experiment =
+            serde_json::from_value(info["settings"].clone()).map_err(|e| {
+                Error::Io(format!(
+                    "{}: its `settings` cannot be read ({e}); rerun `candor run` to rewrite it",
+                    run_path.display()
+                ))
+            })?;
+        exp.source = ManifestSource {
             path: run_path.clone(),
             sha256: info["manifest_sha256"]
                 .as_str()
                 .unwrap_or_default()
                 .to_string(),
-            text: manifest_text,
-        })?;
+            text: info["manifest"].as_str().unwrap_or_default().to_string(),
+        };
         let rec_path = dir.join("records.jsonl");
         let lines = std::fs::read_to_string(&rec_path).map_err(|e| {
             Error::Io(format!(

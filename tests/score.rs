@@ -1,0 +1,293 @@
+//! `candor score`, `candor apply` and the demo scenario.
+
+use candor::demo;
+use candor::metrics::{ece, Forecasts, MetricOptions};
+use ndarray::Array2;
+use std::path::Path;
+use std::process::Command;
+
+fn candor(dir: &Path) -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_candor"));
+    c.current_dir(dir);
+    c
+}
+
+fn estimated_ece(n: usize, seed: u64) -> f64 {
+    let d = demo::generate(n, seed);
+    let p = Array2::from_shape_fn((n, 2), |(i, j)| {
+        let q = d.parcels[i].predicted;
+        if j == 1 {
+            q
+        } else {
+            1.0 - q
+        }
+    });
+    let y: Vec<usize> = d.parcels.iter().map(|x| usize::from(x.late)).collect();
+    ece(&Forecasts::new(p.view(), &y), &MetricOptions::default())
+}
+
+#[test]
+fn estimated_ece_converges_to_the_known_true_ece() {
+    // The demo's truth is known by construction (src/demo.rs), so the
+    // plug-in ECE on sampled outcomes must approach the true ECE as n
+    // grows: its sampling error and upward bias shrink like 1/sqrt(n).
+    let truth = demo::true_ece(15);
+    assert!(
+        truth > 0.05 && truth < 0.1,
+        "an over-confident model: {truth}"
+    );
+    let error = |n: usize| -> f64 {
+        (1..=4)
+            .map(|s| (estimated_ece(n, s) - truth).abs())
+            .sum::<f64>()
+            / 4.0
+    };
+    let (small, medium, large) = (error(1_000), error(30_000), error(1_000_000));
+    assert!(small > medium && medium > large, "{small} {medium} {large}");
+    assert!(large < 0.002, "{large}");
+}
+
+#[test]
+fn score_reports_the_demo_and_finds_its_known_flaws() {
+    let tmp = tempfile::tempdir().unwrap();
+    let s = candor(tmp.path())
+        .args(["demo", "--rows", "20000", "--out", "d.csv"])
+        .output()
+        .unwrap();
+    assert!(s.status.success());
+    let out = candor(tmp.path())
+        .args([
+            "score",
+            "d.csv",
+            "--label",
+            "late",
+            "--group",
+            "region",
+            "--model",
+            "coop",
+            "--bootstrap",
+            "0",
+        ])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let dir = tmp.path().join("results/score-d");
+    for f in [
+        "summary.csv",
+        "records.jsonl",
+        "run.json",
+        "report/report.html",
+        "report/ranking.md",
+    ] {
+        assert!(dir.join(f).exists(), "{f}");
+    }
+    let summary = std::fs::read_to_string(dir.join("summary.csv")).unwrap();
+    // The whole file and four regions, seven methods each.
+    assert_eq!(summary.lines().count(), 1 + 5 * 7);
+    // The model stretches log-odds by 1.5 (slope 1/1.5) and misses the
+    // north's extra delay: the diagnosis must say so.
+    let diag = std::fs::read_to_string(dir.join("report/diagnosis.csv")).unwrap();
+    let row = |name: &str| {
+        diag.lines()
+            .find(|l| l.starts_with(name))
+            .unwrap()
+            .to_string()
+    };
+    assert!(row("d,").contains("over-confident"), "{diag}");
+    assert!(row("d region=north").contains("biased down"), "{diag}");
+    assert!(!row("d region=east").contains("biased"), "{diag}");
+    // Recalibration helps: Platt's ECE on the whole file is well below the
+    // raw one.
+    assert!(ece_of(&summary, "d", "platt") < 0.5 * ece_of(&summary, "d", "none"));
+}
+
+fn ece_of(summary: &str, dataset: &str, method: &str) -> f64 {
+    let mut r = csv::Reader::from_reader(summary.as_bytes());
+    let h = r.headers().unwrap().clone();
+    let col = h.iter().position(|c| c == "ece").unwrap();
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        if &rec[0] == dataset && &rec[2] == method {
+            return rec[col].parse().unwrap();
+        }
+    }
+    panic!("no row {dataset} {method}");
+}
+
+/// The documented formulas of a calibration file (src/calibrate/export.rs),
+/// written out independently, as another program would.
+fn by_the_documentation(map: &serde_json::Value, p: f64) -> f64 {
+    let logit = |q: f64| {
+        let q = q.clamp(1e-15, 1.0 - 1e-15);
+        (q / (1.0 - q)).ln()
+    };
+    if let Some(t) = map["temperature"].as_f64() {
+        let (a, b) = (p.powf(1.0 / t), (1.0 - p).powf(1.0 / t));
+        return a / (a + b);
+    }
+    let s = if map["reads"] == "logit" { logit(p) } else { p };
+    let m = &map["maps"][0];
+    let f = |k: &str| m[k].as_f64().unwrap();
+    let v = |k: &str| -> Vec<f64> {
+        m[k].as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_f64().unwrap())
+            .collect()
+    };
+    match m["kind"].as_str().unwrap() {
+        "sigmoid" => 1.0 / (1.0 + (f("a") * s + f("b")).exp()),
+        "beta" => {
+            let s = s.clamp(1e-12, 1.0 - 1e-12);
+            1.0 / (1.0 + (-(f("c") + f("a") * s.ln() - f("b") * (1.0 - s).ln())).exp())
+        }
+        "steps" => {
+            let (upper, y) = (v("upper"), v("y"));
+            let i = upper.iter().position(|&u| s <= u).unwrap_or(upper.len());
+            y[i]
+        }
+        "piecewise_linear" => {
+            let (x, y) = (v("x"), v("y"));
+            if s <= x[0] {
+                return y[0];
+            }
+            if s >= x[x.len() - 1] {
+                return y[y.len() - 1];
+            }
+            let j = x.iter().position(|&xi| xi > s).unwrap();
+            y[j - 1] + (y[j] - y[j - 1]) * (s - x[j - 1]) / (x[j] - x[j - 1])
+        }
+        other => panic!("kind {other}"),
+    }
+}
+
+#[test]
+fn saved_maps_apply_as_documented() {
+    let tmp = tempfile::tempdir().unwrap();
+    candor(tmp.path())
+        .args(["demo", "--rows", "3000", "--out", "d.csv"])
+        .output()
+        .unwrap();
+    for method in ["platt", "isotonic", "histogram", "beta", "temperature"] {
+        let file = format!("{method}.json");
+        let out = candor(tmp.path())
+            .args([
+                "score",
+                "d.csv",
+                "--label",
+                "late",
+                "--group",
+                "region",
+                "--bootstrap",
+                "0",
+                "--fit",
+                method,
+                "--save",
+                &file,
+            ])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let map: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(tmp.path().join(&file)).unwrap())
+                .unwrap();
+        let applied = candor(tmp.path())
+            .args([
+                "apply", &file, "d.csv", "--label", "late", "--group", "region",
+            ])
+            .output()
+            .unwrap();
+        assert!(
+            applied.status.success(),
+            "{}",
+            String::from_utf8_lossy(&applied.stderr)
+        );
+        let text = String::from_utf8(applied.stdout).unwrap();
+        let mut r = csv::Reader::from_reader(text.as_bytes());
+        assert_eq!(r.headers().unwrap().iter().next_back(), Some("calibrated_1"));
+        for rec in r.records().take(500) {
+            let rec = rec.unwrap();
+            let p: f64 = rec[2].parse().unwrap();
+            let got: f64 = rec[4].parse().unwrap();
+            let want = by_the_documentation(&map, p);
+            assert!(
+                (got - want).abs() < 1e-9,
+                "{method}: p {p}: {got} vs {want}"
+            );
+        }
+    }
+}
+
+#[test]
+fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut rows = String::from("truth,p_red,p_green,p_blue\n");
+    for i in 0..90 {
+        let label = ["red", "green", "blue"][i % 3];
+        let (a, b) = (0.2 + 0.005 * (i % 7) as f64, 0.3);
+        rows.push_str(&format!("{label},{a},{b},{}\n", 1.0 - a - b));
+    }
+    std::fs::write(tmp.path().join("m.csv"), &rows).unwrap();
+    let out = candor(tmp.path())
+        .args([
+            "score",
+            "m.csv",
+            "--label",
+            "truth",
+            "--json",
+            "--bootstrap",
+            "0",
+            "--folds",
+            "3",
+        ])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["classes"], serde_json::json!(["red", "green", "blue"]));
+    assert!(v["metrics"]["brier"].as_f64().unwrap() > 0.0);
+
+    let broken = rows.replacen("red,0.2,0.3,0.5", "red,0.2,0.3,0.9", 1);
+    std::fs::write(tmp.path().join("b.csv"), broken).unwrap();
+    let out = candor(tmp.path())
+        .args(["score", "b.csv", "--label", "truth"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!out.status.success());
+    assert!(
+        err.contains("do not sum to 1") && err.contains("lines 2"),
+        "{err}"
+    );
+    for (args, want) in [
+        (
+            vec!["score", "m.csv", "--label", "colour"],
+            "no label column `colour`",
+        ),
+        (
+            vec![
+                "score", "m.csv", "--label", "truth", "--fit", "spline", "--save", "x.json",
+            ],
+            "unknown method",
+        ),
+    ] {
+        let out = candor(tmp.path()).args(&args).output().unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(
+            !out.status.success() && err.contains(want),
+            "{args:?}: {err}"
+        );
+    }
+}
