@@ -27,6 +27,7 @@ fn main() {
                 source: DataSource::Bundled(id.to_string()),
                 target: None,
                 positive: None,
+                format: Default::default(),
                 origin: String::new(),
             };
             candor::data::load(&spec, Some(&catalog), &dir).expect("bundled dataset")

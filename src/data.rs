@@ -9,6 +9,11 @@
 use crate::catalog::Catalog;
 use crate::error::{Error, Result};
 use crate::manifest::{DataSource, DatasetSpec, Evaluation};
+use flate2::read::MultiGzDecoder;
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+use std::collections::HashMap;
+use std::io::{BufRead, Read};
 use std::path::Path;
 
 /// Marks a missing categorical value.
@@ -103,21 +108,19 @@ pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) 
             } else {
                 manifest_dir.join(p)
             };
-            let bytes = std::fs::read(&path).map_err(|e| {
-                Error::Io(format!(
-                    "{}: cannot read dataset `{}`: {e}; check `path` at {} (relative paths start at the manifest's folder)",
+            if !path.is_file() {
+                return Err(Error::Io(format!(
+                    "{}: cannot read dataset `{}`: no such file; check `path` at {} (relative paths start at the manifest's folder)",
                     path.display(),
                     spec.name,
                     spec.origin
-                ))
-            })?;
+                )));
+            }
             let target = spec.target.clone().unwrap_or_default();
-            (
-                bytes,
-                path.display().to_string(),
-                target,
-                spec.positive.clone(),
-            )
+            let mut table = read_csv(&path, &target, spec.positive.as_deref(), &spec.format)
+                .map_err(in_entry)?;
+            table.name = spec.name.clone();
+            return Ok(table);
         }
     };
     let mut table = parse_csv(&bytes, &file, &target, positive.as_deref()).map_err(in_entry)?;
@@ -129,13 +132,121 @@ fn is_missing(field: &str) -> bool {
     field.is_empty() || field == "NA"
 }
 
-/// Parses CSV bytes; `file` is used in messages only.
+/// How a CSV file is written: its field delimiter and decimal mark.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub struct CsvFormat {
+    pub delimiter: u8,
+    /// Numbers are written with a decimal comma (`3,14`); needs a
+    /// delimiter other than the comma.
+    pub decimal_comma: bool,
+}
+
+impl Default for CsvFormat {
+    fn default() -> Self {
+        CsvFormat {
+            delimiter: b',',
+            decimal_comma: false,
+        }
+    }
+}
+
+impl CsvFormat {
+    /// True for the default format, so manifests that never set it keep
+    /// their recorded settings and fingerprints.
+    pub fn is_default(&self) -> bool {
+        *self == CsvFormat::default()
+    }
+
+    fn number(&self, field: &str) -> Option<f64> {
+        if self.decimal_comma && field.contains(',') {
+            field.replace(',', ".").parse().ok()
+        } else {
+            field.parse().ok()
+        }
+    }
+}
+
+/// Opens a fresh reader over the data for each of the two passes.
+type Opener<'a> = dyn FnMut() -> Result<Box<dyn Read + 'a>> + 'a;
+
+/// Parses CSV bytes in the default format; `file` is used in messages only.
 pub fn parse_csv(bytes: &[u8], file: &str, target: &str, positive: Option<&str>) -> Result<Table> {
-    let mut reader = csv::ReaderBuilder::new()
+    let sha = crate::manifest::hex_sha256(bytes);
+    parse_stream(
+        &mut || Ok(Box::new(bytes) as Box<dyn Read>),
+        file,
+        target,
+        positive,
+        &CsvFormat::default(),
+        sha,
+    )
+}
+
+/// Reads a CSV file, gzip-compressed or not (by its first bytes), without
+/// holding the text in memory: one pass finds each column's type, a second
+/// fills typed columns, so memory stays near the size of the columns.
+pub fn read_csv(
+    path: &Path,
+    target: &str,
+    positive: Option<&str>,
+    format: &CsvFormat,
+) -> Result<Table> {
+    let file = path.display().to_string();
+    let fail = |e: std::io::Error| {
+        Error::Io(format!(
+            "{file}: cannot read: {e}; check the path (relative paths start at the manifest's folder)"
+        ))
+    };
+    let sha = {
+        let mut hasher = Sha256::new();
+        let mut f = std::fs::File::open(path).map_err(fail)?;
+        std::io::copy(&mut f, &mut hasher).map_err(fail)?;
+        hasher
+            .finalize()
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect()
+    };
+    let mut open = || -> Result<Box<dyn Read>> {
+        let mut f =
+            std::io::BufReader::with_capacity(1 << 20, std::fs::File::open(path).map_err(fail)?);
+        let gzip = f.fill_buf().map_err(fail)?.starts_with(&[0x1f, 0x8b]);
+        Ok(if gzip {
+            Box::new(std::io::BufReader::with_capacity(
+                1 << 20,
+                MultiGzDecoder::new(f),
+            ))
+        } else {
+            Box::new(f)
+        })
+    };
+    parse_stream(&mut open, &file, target, positive, format, sha)
+}
+
+fn csv_reader<'a>(r: Box<dyn Read + 'a>, format: &CsvFormat) -> csv::Reader<Box<dyn Read + 'a>> {
+    csv::ReaderBuilder::new()
         .has_headers(true)
         .trim(csv::Trim::All)
-        .from_reader(bytes);
-    let headers = reader
+        .delimiter(format.delimiter)
+        .from_reader(r)
+}
+
+fn parse_stream(
+    open: &mut Opener<'_>,
+    file: &str,
+    target: &str,
+    positive: Option<&str>,
+    format: &CsvFormat,
+    sha256: String,
+) -> Result<Table> {
+    if format.decimal_comma && format.delimiter == b',' {
+        return Err(Error::Data(format!(
+            "{file}: decimal commas need another field delimiter, such as `;`"
+        )));
+    }
+    // Pass 1: the header, the target, and which columns are all numbers.
+    let mut rdr = csv_reader(open()?, format);
+    let headers = rdr
         .headers()
         .map_err(|e| csv_error(file, &e))?
         .iter()
@@ -156,49 +267,155 @@ pub fn parse_csv(bytes: &[u8], file: &str, target: &str, positive: Option<&str>)
     let Some(target_idx) = headers.iter().position(|h| h == target) else {
         let shown: Vec<&str> = headers.iter().take(20).map(String::as_str).collect();
         let more = if headers.len() > 20 { ", ..." } else { "" };
+        let hint = if headers.len() == 1 && format.delimiter == b',' {
+            " (one column only: if the file uses `;` or tabs, set `delimiter`)"
+        } else {
+            ""
+        };
         return Err(Error::Data(format!(
-            "{file}: no column named `{target}` for the target; columns are: {}{more}; set `target` to one of them",
+            "{file}: no column named `{target}` for the target; columns are: {}{more}{hint}; set `target` to one of them",
             shown.join(", ")
         )));
     };
-
-    let mut raw: Vec<Vec<String>> = vec![Vec::new(); headers.len()];
-    let mut lines: Vec<u64> = Vec::new();
+    // One pass fills typed columns: a column stays numeric while every
+    // field is a number or missing. A column that meets text after numbers
+    // is re-read as categorical in a second pass over those columns only.
+    enum Building {
+        Numbers(Vec<f64>, Option<(u64, String)>),
+        Codes(Vec<u32>, HashMap<String, u32>),
+        Pending,
+    }
+    let code = |codes: &mut Vec<u32>, seen: &mut HashMap<String, u32>, field: &str| {
+        if is_missing(field) {
+            codes.push(MISSING_CODE);
+        } else if let Some(&c) = seen.get(field) {
+            codes.push(c);
+        } else {
+            let c = seen.len() as u32;
+            seen.insert(field.to_string(), c);
+            codes.push(c);
+        }
+    };
+    let mut building: Vec<Building> = (0..headers.len())
+        .map(|_| Building::Numbers(Vec::new(), None))
+        .collect();
+    let mut targets: Vec<String> = Vec::new();
     let mut record = csv::StringRecord::new();
-    while reader
+    while rdr
         .read_record(&mut record)
         .map_err(|e| csv_error(file, &e))?
     {
-        let line = record.position().map_or(0, |p| p.line());
         if record.iter().all(str::is_empty) {
             continue;
         }
+        let line = record.position().map_or(0, |p| p.line());
         if is_missing(&record[target_idx]) {
             return Err(Error::Data(format!(
                 "{file}:{line}: the target `{target}` is empty; give every row a label or remove the row"
             )));
         }
-        for (column, field) in raw.iter_mut().zip(record.iter()) {
-            column.push(field.to_string());
+        targets.push(record[target_idx].to_string());
+        for (c, field) in record.iter().enumerate() {
+            if c == target_idx {
+                continue;
+            }
+            let b = &mut building[c];
+            match b {
+                Building::Numbers(v, bad) => {
+                    if is_missing(field) {
+                        v.push(f64::NAN);
+                    } else if let Some(x) = format.number(field) {
+                        if !x.is_finite() && bad.is_none() {
+                            *bad = Some((line, field.to_string()));
+                        }
+                        v.push(x);
+                    } else if v.iter().all(|x| x.is_nan()) {
+                        // Only missing values so far: categorical from here.
+                        let mut codes = vec![MISSING_CODE; v.len()];
+                        let mut seen = HashMap::new();
+                        code(&mut codes, &mut seen, field);
+                        *b = Building::Codes(codes, seen);
+                    } else {
+                        *b = Building::Pending;
+                    }
+                }
+                Building::Codes(codes, seen) => code(codes, seen, field),
+                Building::Pending => {}
+            }
         }
-        lines.push(line);
     }
-    if lines.is_empty() {
+    if targets.is_empty() {
         return Err(Error::Data(format!(
             "{file}: no data rows after the header; add rows"
         )));
     }
-
-    let targets = std::mem::take(&mut raw[target_idx]);
     let (labels, classes) = encode_target(file, target, &targets, positive)?;
+    drop(targets);
+    if building.iter().any(|b| matches!(b, Building::Pending)) {
+        let pending: Vec<usize> = (0..headers.len())
+            .filter(|&c| matches!(building[c], Building::Pending))
+            .collect();
+        for &c in &pending {
+            building[c] = Building::Codes(Vec::with_capacity(labels.len()), HashMap::new());
+        }
+        let mut rdr = csv_reader(open()?, format);
+        rdr.headers().map_err(|e| csv_error(file, &e))?;
+        while rdr
+            .read_record(&mut record)
+            .map_err(|e| csv_error(file, &e))?
+        {
+            if record.iter().all(str::is_empty) {
+                continue;
+            }
+            for &c in &pending {
+                if let Building::Codes(codes, seen) = &mut building[c] {
+                    code(codes, seen, &record[c]);
+                }
+            }
+        }
+    }
 
     let mut columns = Vec::new();
     let mut warnings = Vec::new();
-    for (i, (name, values)) in headers.iter().zip(raw).enumerate() {
-        if i == target_idx {
+    for (c, (name, b)) in headers.iter().zip(building).enumerate() {
+        if c == target_idx {
             continue;
         }
-        let data = type_column(file, name, &values, &lines)?;
+        let data = match b {
+            Building::Numbers(v, bad) => {
+                if let Some((line, field)) = bad {
+                    return Err(Error::Data(format!(
+                        "{file}:{line}: column `{name}` holds `{field}`, which is not a finite number; fix it, or leave the field empty to mark it missing"
+                    )));
+                }
+                ColumnData::Numeric(v)
+            }
+            Building::Codes(codes, seen) => {
+                // Levels sorted, as the one-hot columns are ordered by them.
+                let mut levels: Vec<(String, u32)> = seen.into_iter().collect();
+                levels.sort();
+                let mut remap = vec![0u32; levels.len()];
+                for (i, (_, old)) in levels.iter().enumerate() {
+                    remap[*old as usize] = i as u32;
+                }
+                ColumnData::Categorical {
+                    codes: codes
+                        .into_iter()
+                        .map(|x| {
+                            if x == MISSING_CODE {
+                                x
+                            } else {
+                                remap[x as usize]
+                            }
+                        })
+                        .collect(),
+                    levels: levels.into_iter().map(|(l, _)| l).collect(),
+                }
+            }
+            // Cannot happen: the second pass turned every pending column
+            // into codes.
+            Building::Pending => continue,
+        };
         if let Some(why) = uninformative(&data) {
             warnings.push(format!(
                 "{file}: column `{name}` {why}, so it is ignored; remove it to silence this note"
@@ -218,7 +435,7 @@ pub fn parse_csv(bytes: &[u8], file: &str, target: &str, positive: Option<&str>)
     Ok(Table {
         name: String::new(),
         source: file.to_string(),
-        sha256: crate::manifest::hex_sha256(bytes),
+        sha256,
         columns,
         labels,
         classes,
@@ -336,44 +553,6 @@ fn encode_target(
         .map(|v| classes.iter().position(|c| c == v).unwrap_or(0))
         .collect();
     Ok((labels, classes))
-}
-
-fn type_column(file: &str, name: &str, values: &[String], lines: &[u64]) -> Result<ColumnData> {
-    let parsed: Option<Vec<f64>> = values
-        .iter()
-        .map(|v| {
-            if is_missing(v) {
-                Some(f64::NAN)
-            } else {
-                v.parse::<f64>().ok()
-            }
-        })
-        .collect();
-    if let Some(numbers) = parsed {
-        for (i, (v, x)) in values.iter().zip(&numbers).enumerate() {
-            if !is_missing(v) && !x.is_finite() {
-                return Err(Error::Data(format!(
-                    "{file}:{}: column `{name}` holds `{v}`, which is not a finite number; fix it, or leave the field empty to mark it missing",
-                    lines[i]
-                )));
-            }
-        }
-        return Ok(ColumnData::Numeric(numbers));
-    }
-    let mut levels: Vec<String> = values.iter().filter(|v| !is_missing(v)).cloned().collect();
-    levels.sort();
-    levels.dedup();
-    let codes = values
-        .iter()
-        .map(|v| {
-            if is_missing(v) {
-                MISSING_CODE
-            } else {
-                levels.binary_search(v).map_or(MISSING_CODE, |i| i as u32)
-            }
-        })
-        .collect();
-    Ok(ColumnData::Categorical { codes, levels })
 }
 
 /// Why a column carries no information, if it does not.

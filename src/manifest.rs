@@ -6,6 +6,7 @@
 //! `file:line:column: message`, where the message says what is allowed.
 //! See the README's manifest reference for every key.
 
+use crate::data::CsvFormat;
 use crate::error::{Error, Result};
 use crate::params::{self, Params};
 use crate::{calibrate, learner, metrics};
@@ -94,6 +95,9 @@ pub struct DatasetSpec {
     /// The positive class of a binary target; bundled datasets default to the
     /// catalog's, other files to `1` or `true` when those are the labels.
     pub positive: Option<String>,
+    /// The file's delimiter and decimal mark (`delimiter`, `decimal`).
+    #[serde(default, skip_serializing_if = "CsvFormat::is_default")]
+    pub format: CsvFormat,
     /// `file:line:column` of the entry, for later error messages.
     #[serde(skip)]
     pub origin: String,
@@ -153,6 +157,8 @@ struct RawDataset {
     path: Option<Spanned<String>>,
     target: Option<Spanned<String>>,
     positive: Option<Spanned<toml::Value>>,
+    delimiter: Option<Spanned<String>>,
+    decimal: Option<Spanned<String>>,
 }
 
 #[derive(Deserialize)]
@@ -307,11 +313,49 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
                 }
             }),
         };
+        let mut format = CsvFormat::default();
+        if let Some(dl) = &d.delimiter {
+            format.delimiter = match dl.get_ref().as_str() {
+                "tab" | "\t" => b'\t',
+                one if one.len() == 1 && one != "\"" && one != "\n" => one.as_bytes()[0],
+                other => {
+                    return Err(at.error(
+                        dl.span().start,
+                        &format!("`delimiter = \"{other}\"` must be one ASCII character such as \",\", \";\" or \"|\", or \"tab\""),
+                    ))
+                }
+            };
+        }
+        if let Some(dec) = &d.decimal {
+            format.decimal_comma = match dec.get_ref().as_str() {
+                "." => false,
+                "," => true,
+                other => {
+                    return Err(at.error(
+                        dec.span().start,
+                        &format!("`decimal = \"{other}\"` must be \".\" or \",\""),
+                    ))
+                }
+            };
+            if format.decimal_comma && format.delimiter == b',' {
+                return Err(at.error(
+                    dec.span().start,
+                    "`decimal = \",\"` needs another field delimiter; set `delimiter = \";\"` (or the file's own)",
+                ));
+            }
+        }
+        if let (DataSource::Bundled(_), false) = (&source, format.is_default()) {
+            return Err(at.error(
+                d.name.span().start,
+                "bundled datasets are plain comma-separated files; `delimiter` and `decimal` apply to `path` datasets",
+            ));
+        }
         datasets.push(DatasetSpec {
             name: d.name.get_ref().clone(),
             source,
             target: d.target.map(|t| t.into_inner()),
             positive,
+            format,
             origin: at.position(d.name.span().start),
         });
     }

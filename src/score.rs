@@ -101,6 +101,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 source: DataSource::Path(path.to_path_buf()),
                 target: opts.layout.label.clone(),
                 positive: opts.layout.positive.clone(),
+                format: Default::default(),
                 origin: String::new(),
             })
             .collect(),

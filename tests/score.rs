@@ -212,7 +212,10 @@ fn saved_maps_apply_as_documented() {
         );
         let text = String::from_utf8(applied.stdout).unwrap();
         let mut r = csv::Reader::from_reader(text.as_bytes());
-        assert_eq!(r.headers().unwrap().iter().next_back(), Some("calibrated_1"));
+        assert_eq!(
+            r.headers().unwrap().iter().next_back(),
+            Some("calibrated_1")
+        );
         for rec in r.records().take(500) {
             let rec = rec.unwrap();
             let p: f64 = rec[2].parse().unwrap();
