@@ -25,6 +25,13 @@ pub struct Entry {
     pub positive: Option<String>,
     pub rows: usize,
     pub sha256: String,
+    #[serde(default)]
+    pub n_features: usize,
+    #[serde(default)]
+    pub n_classes: usize,
+    /// Share of rows in the rarest class.
+    #[serde(default)]
+    pub minority_share: f64,
 }
 
 /// A loaded catalog and the folder its files live in.

@@ -20,6 +20,8 @@ use crate::rng::SplitMix64;
 pub struct Parcel {
     pub late: bool,
     pub region: usize,
+    pub distance_km: f64,
+    pub rain: bool,
     /// The co-op model's predicted probability of being late.
     pub predicted: f64,
     /// The true probability.
@@ -39,6 +41,8 @@ fn parcel(rng: &mut SplitMix64) -> Parcel {
     Parcel {
         late: rng.unit() < truth,
         region,
+        distance_km: distance,
+        rain: rain > 0.0,
         predicted: sigmoid(1.5 * known + 0.1),
         truth,
     }
@@ -68,6 +72,25 @@ impl Demo {
                 u8::from(p.late),
                 REGIONS[p.region],
                 p.predicted
+            ));
+        }
+        s
+    }
+}
+
+impl Demo {
+    /// The parcels' own records, for training families on: `region`,
+    /// `distance_km` (one decimal), `rain` (yes/no) and `late` (yes/no).
+    pub fn features_csv(&self) -> String {
+        let mut s = String::from("region,distance_km,rain,late\n");
+        for p in &self.parcels {
+            let yes = |b: bool| if b { "yes" } else { "no" };
+            s.push_str(&format!(
+                "{},{:.1},{},{}\n",
+                REGIONS[p.region],
+                p.distance_km,
+                yes(p.rain),
+                yes(p.late)
             ));
         }
         s

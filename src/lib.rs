@@ -16,6 +16,7 @@ pub mod export;
 pub mod folds;
 pub mod gate;
 pub mod glm;
+pub mod inspect;
 pub mod learner;
 pub mod manifest;
 pub mod math;

@@ -133,9 +133,18 @@ enum Command {
         rows: usize,
         #[arg(long, default_value_t = 7)]
         seed: u64,
-        /// Output CSV.
-        #[arg(long, default_value = "demo-deliveries.csv")]
+        /// The model's predictions (late, region, p_late).
+        #[arg(long, default_value = "deliveries.csv")]
         out: PathBuf,
+        /// The parcels' records (region, distance_km, rain, late), for
+        /// `candor data add` and training families.
+        #[arg(long, default_value = "parcels.csv")]
+        features: PathBuf,
+    },
+    /// Bundled datasets, and checking or adding an in-house CSV.
+    Data {
+        #[command(subcommand)]
+        command: DataCommand,
     },
     /// Check a manifest and its datasets without training anything.
     Check {
@@ -153,6 +162,88 @@ enum Command {
         #[arg(long)]
         datasets: Option<PathBuf>,
     },
+}
+
+#[derive(Subcommand)]
+enum DataCommand {
+    /// The bundled datasets: rows, features, classes, balance and licence.
+    List {
+        /// Folder holding the bundled datasets and their catalog.json.
+        #[arg(long)]
+        datasets: Option<PathBuf>,
+    },
+    /// Schema, missing values, class balance against the folds, and
+    /// columns that look like identifiers or leak the target.
+    Inspect {
+        /// The CSV (plain or gzip-compressed).
+        file: PathBuf,
+        #[command(flatten)]
+        csv: CsvArgs,
+        /// Outer folds the data must support.
+        #[arg(long, default_value_t = 5)]
+        folds: usize,
+        /// Inner folds the data must support.
+        #[arg(long, default_value_t = 5)]
+        inner_folds: usize,
+    },
+    /// Check a CSV and append a dataset entry for it to a manifest,
+    /// keeping the manifest's comments and layout.
+    Add {
+        /// The CSV (plain or gzip-compressed).
+        file: PathBuf,
+        #[command(flatten)]
+        csv: CsvArgs,
+        /// The manifest to extend.
+        #[arg(long)]
+        to: PathBuf,
+        /// The dataset's name in the manifest [default: the file name].
+        #[arg(long)]
+        name: Option<String>,
+    },
+}
+
+/// Where the target is and how the CSV is written.
+#[derive(clap::Args)]
+struct CsvArgs {
+    /// The target column.
+    #[arg(long)]
+    target: String,
+    /// The positive class of a binary target.
+    #[arg(long)]
+    positive: Option<String>,
+    /// Field delimiter: one character, or `tab`.
+    #[arg(long, default_value = ",")]
+    delimiter: String,
+    /// Decimal mark: `.` or `,`.
+    #[arg(long, default_value = ".")]
+    decimal: String,
+}
+
+impl CsvArgs {
+    fn format(&self) -> candor::Result<candor::data::CsvFormat> {
+        let delimiter = match self.delimiter.as_str() {
+            "tab" | "\\t" => b'\t',
+            d if d.len() == 1 => d.as_bytes()[0],
+            d => {
+                return Err(candor::Error::Manifest(format!(
+                    "--delimiter {d}: give one character, or `tab`"
+                )))
+            }
+        };
+        let decimal_comma = match self.decimal.as_str() {
+            "." => false,
+            "," => true,
+            d => {
+                return Err(candor::Error::Manifest(format!(
+                    "--decimal {d}: give `.` or `,`"
+                )))
+            }
+        };
+        Ok(candor::data::CsvFormat {
+            delimiter,
+            decimal_comma,
+        })
+    }
 }
 
 /// How a predictions CSV is laid out.
@@ -259,6 +350,111 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
     let code = run_command(command, &mut out);
     emit(&out);
     code
+}
+
+fn data_command(command: DataCommand, text: &mut String) -> candor::Result<ExitCode> {
+    use candor::table::Table;
+    match command {
+        DataCommand::List { datasets } => {
+            let cat = catalog::Catalog::locate(datasets.as_deref(), std::path::Path::new("."))?;
+            let mut t = Table::new(
+                "datasets",
+                &format!("Bundled datasets in {}", cat.dir.display()),
+                &[
+                    "id",
+                    "task",
+                    "rows",
+                    "features",
+                    "classes",
+                    "rarest class",
+                    "data licence",
+                    "package licence",
+                ],
+            );
+            for e in &cat.entries {
+                // "package: X (pkg); data: Y (notes)" -> the short forms.
+                let part = |key: &str| -> String {
+                    e.license
+                        .split(';')
+                        .find_map(|p| p.trim().strip_prefix(key))
+                        .map(|v| v.split(" (").next().unwrap_or_default().trim().to_string())
+                        .unwrap_or_else(|| "see PROVENANCE.md".into())
+                };
+                t.rows.push(vec![
+                    e.id.as_str().into(),
+                    e.task.as_str().into(),
+                    e.rows.into(),
+                    e.n_features.into(),
+                    e.n_classes.into(),
+                    format!("{:.1}%", e.minority_share * 100.0).into(),
+                    part("data:").into(),
+                    part("package:").into(),
+                ]);
+            }
+            t.notes.push(format!(
+                "Full licences and provenance: {}/PROVENANCE.md",
+                cat.dir.display()
+            ));
+            text.push_str(&Text.render(&t));
+            Ok(ExitCode::SUCCESS)
+        }
+        DataCommand::Inspect {
+            file,
+            csv,
+            folds,
+            inner_folds,
+        } => {
+            let table = candor::data::read_csv(
+                &file,
+                &csv.target,
+                csv.positive.as_deref(),
+                &csv.format()?,
+            )?;
+            let mut eval = manifest::default_evaluation(0);
+            eval.outer_folds = folds;
+            eval.inner_folds = inner_folds;
+            let found = candor::inspect::inspect(&table, &eval);
+            text.push_str(&Text.render(&found.schema));
+            text.push('\n');
+            text.push_str(&Text.render(&found.classes));
+            text.push('\n');
+            if found.warnings.is_empty() {
+                text.push_str("No warnings.\n");
+            }
+            for w in &found.warnings {
+                let _ = writeln!(text, "warning: {w}");
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        DataCommand::Add {
+            file,
+            csv,
+            to,
+            name,
+        } => {
+            let format = csv.format()?;
+            let table =
+                candor::data::read_csv(&file, &csv.target, csv.positive.as_deref(), &format)?;
+            let entry = candor::manifest::append_dataset(
+                &to,
+                &file,
+                name.as_deref(),
+                &csv.target,
+                csv.positive.as_deref(),
+                &format,
+                &table,
+            )?;
+            let _ = writeln!(
+                text,
+                "added dataset `{entry}` ({} rows, {} classes) to {}; check it with `candor check {}`",
+                table.rows(),
+                table.n_classes(),
+                to.display(),
+                to.display()
+            );
+            Ok(ExitCode::SUCCESS)
+        }
+    }
 }
 
 fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> {
@@ -456,19 +652,25 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             }
             Ok(ExitCode::SUCCESS)
         }
-        Command::Demo { rows, seed, out } => {
+        Command::Demo {
+            rows,
+            seed,
+            out,
+            features,
+        } => {
             let demo = candor::demo::generate(rows, seed);
             candor::store::write_atomic(&out, demo.csv().as_bytes())?;
+            candor::store::write_atomic(&features, demo.features_csv().as_bytes())?;
             let _ = writeln!(
                 text,
-                "{} deliveries written to {}; the model's true ECE ({} bins) is {:.4}",
-                rows,
+                "{rows} parcels: the co-op model's predictions in {}, the parcels' records in {}; the model's true ECE (15 bins) is {:.4}",
                 out.display(),
-                15,
+                features.display(),
                 candor::demo::true_ece(15)
             );
             Ok(ExitCode::SUCCESS)
         }
+        Command::Data { command } => data_command(command, text),
         Command::Check {
             manifest: path,
             datasets,

@@ -584,3 +584,121 @@ impl Locator<'_> {
         Error::Manifest(format!("{}: {msg}", self.position(offset)))
     }
 }
+
+/// Appends a `[[dataset]]` entry for a CSV to a manifest, keeping the
+/// file's text (comments, layout) as it is, after checking that the data
+/// meet the manifest's fold counts and that the result still parses.
+/// Returns the entry's name.
+pub fn append_dataset(
+    manifest: &Path,
+    file: &Path,
+    name: Option<&str>,
+    target: &str,
+    positive: Option<&str>,
+    format: &CsvFormat,
+    table: &crate::data::Table,
+) -> Result<String> {
+    let old = std::fs::read_to_string(manifest).map_err(|e| {
+        Error::Manifest(format!(
+            "{}: cannot read the manifest: {e}; check the path",
+            manifest.display()
+        ))
+    })?;
+    let name = match name {
+        Some(n) => n.to_string(),
+        None => {
+            let stem = file
+                .file_name()
+                .map(|s| s.to_string_lossy().to_string())
+                .unwrap_or_default();
+            let stem = stem
+                .trim_end_matches(".gz")
+                .trim_end_matches(".csv")
+                .trim_end_matches(".tsv");
+            let clean: String = stem
+                .chars()
+                .map(|c| {
+                    if c.is_ascii_alphanumeric() || c == '_' || c == '-' {
+                        c
+                    } else {
+                        '_'
+                    }
+                })
+                .take(64)
+                .collect();
+            if clean.is_empty() {
+                "dataset".to_string()
+            } else {
+                clean
+            }
+        }
+    };
+    // Names already used, from a light reading: the manifest may not
+    // list any dataset yet, which a full check would refuse.
+    let used: Vec<String> = toml::from_str::<toml::Value>(&old)
+        .ok()
+        .and_then(|v| v.get("dataset").and_then(|d| d.as_array()).cloned())
+        .unwrap_or_default()
+        .iter()
+        .filter_map(|d| d.get("name").and_then(|n| n.as_str()).map(str::to_string))
+        .collect();
+    if used.contains(&name) {
+        return Err(Error::Manifest(format!(
+            "{}: a dataset named `{name}` is already listed; choose another name with --name",
+            manifest.display()
+        )));
+    }
+    let source = ManifestSource {
+        path: manifest.to_path_buf(),
+        text: old.clone(),
+        sha256: String::new(),
+    };
+
+    // The path as the manifest will resolve it: relative to its folder when
+    // the file lies inside it, else absolute.
+    let abs = |p: &Path| std::fs::canonicalize(p).map_err(|e| Error::io(p, "find", &e));
+    let data = abs(file)?;
+    let dir = match source.dir() {
+        d if d.as_os_str().is_empty() => abs(Path::new("."))?,
+        d => abs(d)?,
+    };
+    let shown = data
+        .strip_prefix(&dir)
+        .map_or(data.clone(), Path::to_path_buf);
+    let q = |s: &str| toml::Value::String(s.to_string()).to_string();
+    let mut block = format!(
+        "\n[[dataset]]\nname = {}\npath = {}\ntarget = {}\n",
+        q(&name),
+        q(&shown.to_string_lossy()),
+        q(target)
+    );
+    if let Some(p) = positive {
+        block.push_str(&format!("positive = {}\n", q(p)));
+    }
+    if format.delimiter != b',' {
+        let d = if format.delimiter == b'\t' {
+            "tab".to_string()
+        } else {
+            char::from(format.delimiter).to_string()
+        };
+        block.push_str(&format!("delimiter = {}\n", q(&d)));
+    }
+    if format.decimal_comma {
+        block.push_str("decimal = \",\"\n");
+    }
+    let mut text = old;
+    if !text.ends_with('\n') && !text.is_empty() {
+        text.push('\n');
+    }
+    text.push_str(&block);
+    let exp = parse(ManifestSource {
+        path: manifest.to_path_buf(),
+        sha256: hex_sha256(text.as_bytes()),
+        text: text.clone(),
+    })?;
+    let mut checked = table.clone();
+    checked.name = name.clone();
+    crate::data::check_class_counts(&checked, &exp.evaluation)?;
+    crate::store::write_atomic(manifest, text.as_bytes())?;
+    Ok(name)
+}

@@ -1,0 +1,209 @@
+//! `candor data list`, `inspect` and `add`.
+
+use std::path::Path;
+use std::process::Command;
+
+fn candor(dir: &Path) -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_candor"));
+    c.current_dir(dir);
+    c
+}
+
+fn stdout(c: &mut Command) -> String {
+    let out = c.output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8(out.stdout).unwrap()
+}
+
+#[test]
+fn inspect_names_identifiers_leaks_and_sparse_columns() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut csv = String::from("row_id,outcome_code,branch,score,signal,notes,y\n");
+    for i in 0..200 {
+        let y = if i % 3 == 0 { "churned" } else { "stayed" };
+        let code = if y == "churned" { "C" } else { "S" };
+        // Ten branches, each with one outcome only: perfectly predictive.
+        let branch = format!("b{}", (i % 3 == 0) as usize * 10 + i % 5);
+        let score = if y == "churned" { 50 + i % 7 } else { i % 40 };
+        let signal = (i * 37 % 101) as f64 / 10.0;
+        let notes = match i % 8 {
+            0 => "late",
+            4 => "early",
+            _ => "",
+        };
+        csv.push_str(&format!(
+            "{i},{code},{branch},{score},{signal},{notes},{y}\n"
+        ));
+    }
+    std::fs::write(tmp.path().join("c.csv"), csv).unwrap();
+    let out = stdout(candor(tmp.path()).args([
+        "data",
+        "inspect",
+        "c.csv",
+        "--target",
+        "y",
+        "--positive",
+        "churned",
+    ]));
+    let warning = |col: &str, what: &str| {
+        out.lines().any(|l| {
+            l.starts_with("warning:") && l.contains(&format!("`{col}`")) && l.contains(what)
+        })
+    };
+    assert!(warning("row_id", "identifier"), "{out}");
+    assert!(warning("outcome_code", "copy of the target"), "{out}");
+    assert!(warning("branch", "predicts the target perfectly"), "{out}");
+    assert!(warning("score", "separates the two classes"), "{out}");
+    assert!(warning("notes", "missing in 75%"), "{out}");
+    assert!(
+        !out.contains("`signal`"),
+        "an honest column is not flagged: {out}"
+    );
+    assert!(out.contains("churned") && out.contains("positive"));
+}
+
+#[test]
+fn inspect_warns_about_a_class_too_rare_for_the_folds() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut csv = String::from("x,y\n");
+    for i in 0..60 {
+        csv.push_str(&format!("{},{}\n", i % 13, if i < 4 { 1 } else { 0 }));
+    }
+    std::fs::write(tmp.path().join("r.csv"), csv).unwrap();
+    let out = stdout(candor(tmp.path()).args(["data", "inspect", "r.csv", "--target", "y"]));
+    let first = out.lines().find(|l| l.starts_with("warning:")).unwrap();
+    assert!(
+        first.contains("class `1` has 4 rows, too few for 5 outer and 5 inner folds"),
+        "{out}"
+    );
+}
+
+#[test]
+fn add_appends_an_entry_keeping_the_manifest_text() {
+    let tmp = tempfile::tempdir().unwrap();
+    stdout(candor(tmp.path()).args(["demo", "--rows", "400"]));
+    let manifest = "# Our comparison: keep this comment.\nname = \"ours\"\n\n[[family]]\nname = \"lr\"   # the baseline\nkind = \"logistic\"\n";
+    std::fs::write(tmp.path().join("m.toml"), manifest).unwrap();
+    let out = stdout(candor(tmp.path()).args([
+        "data",
+        "add",
+        "parcels.csv",
+        "--target",
+        "late",
+        "--positive",
+        "yes",
+        "--to",
+        "m.toml",
+    ]));
+    assert!(
+        out.contains("added dataset `parcels` (400 rows, 2 classes)"),
+        "{out}"
+    );
+    let text = std::fs::read_to_string(tmp.path().join("m.toml")).unwrap();
+    assert!(
+        text.starts_with(manifest),
+        "the old text is kept byte for byte"
+    );
+    assert!(text.ends_with("[[dataset]]\nname = \"parcels\"\npath = \"parcels.csv\"\ntarget = \"late\"\npositive = \"yes\"\n"), "{text}");
+    // The manifest runs as it stands.
+    let check = stdout(candor(tmp.path()).args(["check", "m.toml"]));
+    assert!(check.contains("parcels: 400 rows"), "{check}");
+
+    // Adding it again under the same name is refused, and changes nothing.
+    let again = candor(tmp.path())
+        .args([
+            "data",
+            "add",
+            "parcels.csv",
+            "--target",
+            "late",
+            "--positive",
+            "yes",
+            "--to",
+            "m.toml",
+        ])
+        .output()
+        .unwrap();
+    assert!(!again.status.success());
+    assert!(String::from_utf8_lossy(&again.stderr).contains("--name"));
+    assert_eq!(
+        std::fs::read_to_string(tmp.path().join("m.toml")).unwrap(),
+        text
+    );
+
+    // A semicolon file with decimal commas is recorded with its format.
+    let euro = std::fs::read_to_string(tmp.path().join("parcels.csv"))
+        .unwrap()
+        .replace(',', ";")
+        .replace('.', ",");
+    std::fs::write(tmp.path().join("euro.csv"), euro).unwrap();
+    stdout(candor(tmp.path()).args([
+        "data",
+        "add",
+        "euro.csv",
+        "--target",
+        "late",
+        "--positive",
+        "yes",
+        "--delimiter",
+        ";",
+        "--decimal",
+        ",",
+        "--to",
+        "m.toml",
+    ]));
+    let text = std::fs::read_to_string(tmp.path().join("m.toml")).unwrap();
+    assert!(
+        text.ends_with("delimiter = \";\"\ndecimal = \",\"\n"),
+        "{text}"
+    );
+    let check = stdout(candor(tmp.path()).args(["check", "m.toml"]));
+    assert!(
+        check.contains("euro: 400 rows, 3 feature columns"),
+        "{check}"
+    );
+}
+
+#[test]
+fn add_refuses_data_the_manifest_cannot_run() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut csv = String::from("x,y\n");
+    for i in 0..40 {
+        csv.push_str(&format!("{i},{}\n", if i < 3 { 1 } else { 0 }));
+    }
+    std::fs::write(tmp.path().join("rare.csv"), csv).unwrap();
+    let manifest = "name = \"ours\"\n[[family]]\nname = \"lr\"\nkind = \"logistic\"\n";
+    std::fs::write(tmp.path().join("m.toml"), manifest).unwrap();
+    let out = candor(tmp.path())
+        .args(["data", "add", "rare.csv", "--target", "y", "--to", "m.toml"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!out.status.success() && err.contains("too few"), "{err}");
+    assert_eq!(
+        std::fs::read_to_string(tmp.path().join("m.toml")).unwrap(),
+        manifest
+    );
+}
+
+#[test]
+fn list_shows_every_bundled_dataset_with_its_licence() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = stdout(candor(root).args(["data", "list"]));
+    let catalog: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(root.join("datasets/catalog.json")).unwrap())
+            .unwrap();
+    for e in catalog.as_array().unwrap() {
+        let id = e["id"].as_str().unwrap();
+        let line = out
+            .lines()
+            .find(|l| l.starts_with(&format!("{id} ")))
+            .unwrap_or_else(|| panic!("{id} missing"));
+        assert!(line.contains(&e["rows"].to_string()), "{line}");
+    }
+    assert!(out.contains("CC BY 4.0") && out.contains("PROVENANCE.md"));
+}
