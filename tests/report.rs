@@ -270,3 +270,27 @@ fn html_report_renders_in_headless_chromium() {
     assert!(dom.contains("id=\"caution\""));
     assert!(dom.contains("table-diagnosis") && dom.contains("table-ranking"));
 }
+
+#[test]
+fn another_deciding_metric_gets_its_own_column_and_direction() {
+    let (_tmp, dir) = fixture();
+    let opts = ReportOptions {
+        metric: "auc".into(),
+        ..Default::default()
+    };
+    report::generate(&dir, &opts).unwrap();
+    let families = std::fs::read_to_string(dir.join("report/families.md")).unwrap();
+    assert!(families.contains("| median_auc | best |"), "{families}");
+    assert!(
+        families.contains("best median auc (higher is better)"),
+        "{families}"
+    );
+    let ranking = std::fs::read_to_string(dir.join("report/ranking.csv")).unwrap();
+    // Higher AUC ranks first.
+    let ranks: Vec<f64> = ranking
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').nth(3).unwrap().parse().unwrap())
+        .collect();
+    assert!(ranks.windows(2).all(|w| w[0] <= w[1]));
+}

@@ -90,6 +90,16 @@ pub fn rank(results: &Results, metric: &Metric) -> Option<Ranking> {
     })
 }
 
+/// Four decimals, or scientific notation below 0.0001 so a tiny p is not
+/// printed as 0.
+fn p_value(p: f64) -> String {
+    if p > 0.0 && p < 1e-4 {
+        format!("{p:.2e}")
+    } else {
+        format!("{p:.4}")
+    }
+}
+
 impl Ranking {
     /// The ranking table with the tests in its notes.
     pub fn table(&self) -> Table {
@@ -117,8 +127,14 @@ impl Ranking {
             self.datasets.len()
         ));
         t.notes.push(format!(
-            "Friedman chi-square = {:.4} (df {}), p = {:.4}; Iman-Davenport F = {:.4} (df {}, {}), p = {:.4}.",
-            f.chi2, f.chi2_df, f.chi2_p, f.f, f.f_df1, f.f_df2, f.f_p
+            "Friedman chi-square = {:.4} (df {}), p = {}; Iman-Davenport F = {:.4} (df {}, {}), p = {}.",
+            f.chi2,
+            f.chi2_df,
+            p_value(f.chi2_p),
+            f.f,
+            f.f_df1,
+            f.f_df2,
+            p_value(f.f_p)
         ));
         t.notes.push(format!(
             "Nemenyi critical difference: {:.4} at alpha 0.05, {:.4} at alpha 0.10; `differs_from_best` = the gap to the best pair is at least the 0.05 difference.",

@@ -194,21 +194,27 @@ fn distinct(values: impl Iterator<Item = String>) -> String {
 /// the method with the best median of the chosen metric.
 pub fn family_table(results: &Results, metric: &Metric) -> Table {
     let has = |m: &str| results.exp.metrics.iter().any(|x| x == m);
+    // The deciding metric gets its own column unless it is shown already.
+    let extra = !matches!(metric.name, "ece" | "brier");
+    let chosen_column = format!("median_{}", metric.name);
+    let mut columns = vec![
+        "family",
+        "method",
+        "datasets",
+        "median_ece",
+        "median_ece_change",
+        "median_brier",
+        "median_brier_change",
+    ];
+    if extra {
+        columns.push(&chosen_column);
+    }
+    columns.extend(["best", "strategies"]);
+    let best_at = columns.len() - 2;
     let mut t = Table::new(
         "families",
         "Each family across datasets: median ECE and Brier score after each method",
-        &[
-            "family",
-            "method",
-            "datasets",
-            "median_ece",
-            "median_ece_change",
-            "median_brier",
-            "median_brier_change",
-            &format!("median_{}", metric.name),
-            "best",
-            "strategies",
-        ],
+        &columns,
     );
     t.notes.push(format!(
         "Medians over datasets of the fold means; `none` is the raw model, changes are medians of the per-dataset change from it. `best` marks each family's method with the best median {} ({}).",
@@ -255,7 +261,7 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
                     .iter()
                     .map(|d| strategy(results, &d.name, &f.name, method)),
             );
-            rows.push(vec![
+            let mut row = vec![
                 Value::from(f.name.as_str()),
                 method.as_str().into(),
                 n.into(),
@@ -263,19 +269,21 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
                 median(&change("ece")).into(),
                 median(&per("brier")).into(),
                 median(&change("brier")).into(),
-                chosen.into(),
-                "".into(),
-                strategies.into(),
-            ]);
+            ];
+            if extra {
+                row.push(chosen.into());
+            }
+            row.extend([Value::from(""), strategies.into()]);
+            rows.push(row);
         }
         if let Some(best) = argmin(&scores) {
-            rows[best][8] = "best".into();
+            rows[best][best_at] = "best".into();
         }
         t.rows.extend(rows);
     }
     if t.rows
         .iter()
-        .any(|r| matches!(&r[9], Value::Text(s) if s.contains(';')))
+        .any(|r| matches!(r.last(), Some(Value::Text(s)) if s.contains(';')))
     {
         t.notes.push("Rows whose `strategies` lists more than one value pool binary and multiclass datasets, which the method handles differently.".into());
     }
