@@ -12,6 +12,17 @@ fn candor(dir: &Path) -> Command {
     c
 }
 
+/// Runs a command that must succeed; its output.
+fn ok(c: &mut Command) -> std::process::Output {
+    let out = c.output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    out
+}
+
 fn estimated_ece(n: usize, seed: u64) -> f64 {
     let d = demo::generate(n, seed);
     let p = Array2::from_shape_fn((n, 2), |(i, j)| {
@@ -50,31 +61,19 @@ fn estimated_ece_converges_to_the_known_true_ece() {
 #[test]
 fn score_reports_the_demo_and_finds_its_known_flaws() {
     let tmp = tempfile::tempdir().unwrap();
-    let s = candor(tmp.path())
-        .args(["demo", "--rows", "20000", "--out", "d.csv"])
-        .output()
-        .unwrap();
-    assert!(s.status.success());
-    let out = candor(tmp.path())
-        .args([
-            "score",
-            "d.csv",
-            "--label",
-            "late",
-            "--group",
-            "region",
-            "--model",
-            "coop",
-            "--bootstrap",
-            "0",
-        ])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    ok(candor(tmp.path()).args(["demo", "--rows", "20000", "--out", "d.csv"]));
+    ok(candor(tmp.path()).args([
+        "score",
+        "d.csv",
+        "--label",
+        "late",
+        "--group",
+        "region",
+        "--model",
+        "coop",
+        "--bootstrap",
+        "0",
+    ]));
     let dir = tmp.path().join("results/score-d");
     for f in [
         "summary.csv",
@@ -168,48 +167,29 @@ fn by_the_documentation(map: &serde_json::Value, p: f64) -> f64 {
 #[test]
 fn saved_maps_apply_as_documented() {
     let tmp = tempfile::tempdir().unwrap();
-    candor(tmp.path())
-        .args(["demo", "--rows", "3000", "--out", "d.csv"])
-        .output()
-        .unwrap();
+    ok(candor(tmp.path()).args(["demo", "--rows", "3000", "--out", "d.csv"]));
     for method in ["platt", "isotonic", "histogram", "beta", "temperature"] {
         let file = format!("{method}.json");
-        let out = candor(tmp.path())
-            .args([
-                "score",
-                "d.csv",
-                "--label",
-                "late",
-                "--group",
-                "region",
-                "--bootstrap",
-                "0",
-                "--fit",
-                method,
-                "--save",
-                &file,
-            ])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
+        ok(candor(tmp.path()).args([
+            "score",
+            "d.csv",
+            "--label",
+            "late",
+            "--group",
+            "region",
+            "--bootstrap",
+            "0",
+            "--fit",
+            method,
+            "--save",
+            &file,
+        ]));
         let map: serde_json::Value =
             serde_json::from_str(&std::fs::read_to_string(tmp.path().join(&file)).unwrap())
                 .unwrap();
-        let applied = candor(tmp.path())
-            .args([
-                "apply", &file, "d.csv", "--label", "late", "--group", "region",
-            ])
-            .output()
-            .unwrap();
-        assert!(
-            applied.status.success(),
-            "{}",
-            String::from_utf8_lossy(&applied.stderr)
-        );
+        let applied = ok(candor(tmp.path()).args([
+            "apply", &file, "d.csv", "--label", "late", "--group", "region",
+        ]));
         let text = String::from_utf8(applied.stdout).unwrap();
         let mut r = csv::Reader::from_reader(text.as_bytes());
         assert_eq!(
@@ -239,25 +219,17 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
         rows.push_str(&format!("{label},{a},{b},{}\n", 1.0 - a - b));
     }
     std::fs::write(tmp.path().join("m.csv"), &rows).unwrap();
-    let out = candor(tmp.path())
-        .args([
-            "score",
-            "m.csv",
-            "--label",
-            "truth",
-            "--json",
-            "--bootstrap",
-            "0",
-            "--folds",
-            "3",
-        ])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let out = ok(candor(tmp.path()).args([
+        "score",
+        "m.csv",
+        "--label",
+        "truth",
+        "--json",
+        "--bootstrap",
+        "0",
+        "--folds",
+        "3",
+    ]));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["classes"], serde_json::json!(["red", "green", "blue"]));
     assert!(v["metrics"]["brier"].as_f64().unwrap() > 0.0);

@@ -53,13 +53,16 @@ pub struct Results {
 impl Results {
     /// Reads `run.json` and `records.jsonl` from a results folder.
     pub fn load(dir: &Path) -> Result<Results> {
+        let read = |path: &Path| {
+            std::fs::read_to_string(path).map_err(|e| {
+                Error::Io(format!(
+                    "{}: cannot read: {e}; point `candor report` at a folder that `candor run` finished",
+                    path.display()
+                ))
+            })
+        };
         let run_path = dir.join("run.json");
-        let text = std::fs::read_to_string(&run_path).map_err(|e| {
-            Error::Io(format!(
-                "{}: cannot read: {e}; point `candor report` at a folder that `candor run` finished",
-                run_path.display()
-            ))
-        })?;
+        let text = read(&run_path)?;
         let info: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
             Error::Io(format!(
                 "{}: not a candor run.json ({e}); rerun `candor run` to rewrite it",
@@ -82,12 +85,7 @@ impl Results {
             text: info["manifest"].as_str().unwrap_or_default().to_string(),
         };
         let rec_path = dir.join("records.jsonl");
-        let lines = std::fs::read_to_string(&rec_path).map_err(|e| {
-            Error::Io(format!(
-                "{}: cannot read: {e}; rerun `candor run` to finish the results",
-                rec_path.display()
-            ))
-        })?;
+        let lines = read(&rec_path)?;
         let mut records = Vec::new();
         for (i, line) in lines
             .lines()
