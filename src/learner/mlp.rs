@@ -70,6 +70,12 @@ pub const FAMILY: Family = Family {
             default: ParamValue::Int(10),
             about: "epochs without a better validation loss before stopping",
         },
+        ParamSpec {
+            name: "tol",
+            kind: ParamKind::Float { min: 0.0, max: 1.0 },
+            default: ParamValue::Float(1e-4),
+            about: "smallest fall in validation log loss that counts as better (scikit-learn's default tolerance)",
+        },
     ],
     build: |p| {
         Box::new(Mlp {
@@ -80,6 +86,7 @@ pub const FAMILY: Family = Family {
             batch: p.int("batch") as usize,
             max_epochs: p.int("max_epochs") as usize,
             patience: p.int("patience") as usize,
+            tol: p.float("tol"),
         })
     },
 };
@@ -92,6 +99,7 @@ struct Mlp {
     batch: usize,
     max_epochs: usize,
     patience: usize,
+    tol: f64,
 }
 
 /// Weights and biases of every layer.
@@ -258,7 +266,7 @@ impl Learner for Mlp {
                     "the multilayer perceptron diverged; lower `learning_rate`".into(),
                 ));
             }
-            if v < best.0 - 1e-6 {
+            if v < best.0 - self.tol {
                 best = (v, net.clone());
                 stale = 0;
             } else {
