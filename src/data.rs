@@ -192,11 +192,7 @@ pub fn read_csv(
     format: &CsvFormat,
 ) -> Result<Table> {
     let file = path.display().to_string();
-    let fail = |e: std::io::Error| {
-        Error::Io(format!(
-            "{file}: cannot read: {e}; check the path (relative paths start at the manifest's folder)"
-        ))
-    };
+    let fail = |e: std::io::Error| Error::Io(format!("{file}: cannot read: {e}; check the path"));
     let sha = {
         let mut hasher = Sha256::new();
         let mut f = std::fs::File::open(path).map_err(fail)?;

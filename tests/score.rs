@@ -234,6 +234,40 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
     assert_eq!(v["classes"], serde_json::json!(["red", "green", "blue"]));
     assert!(v["metrics"]["brier"].as_f64().unwrap() > 0.0);
 
+    // A multiclass temperature map applies as documented:
+    // p_k^(1/T) / sum_j p_j^(1/T).
+    ok(candor(tmp.path()).args([
+        "score",
+        "m.csv",
+        "--label",
+        "truth",
+        "--bootstrap",
+        "0",
+        "--folds",
+        "3",
+        "--fit",
+        "temperature",
+        "--save",
+        "t.json",
+    ]));
+    let map: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(tmp.path().join("t.json")).unwrap()).unwrap();
+    let t = map["temperature"].as_f64().unwrap();
+    let applied = ok(candor(tmp.path()).args(["apply", "t.json", "m.csv", "--label", "truth"]));
+    let text = String::from_utf8(applied.stdout).unwrap();
+    for line in text.lines().skip(1).take(20) {
+        let f: Vec<f64> = line
+            .split(',')
+            .skip(1)
+            .map(|v| v.parse().unwrap())
+            .collect();
+        let powered: Vec<f64> = f[..3].iter().map(|p| p.powf(1.0 / t)).collect();
+        let sum: f64 = powered.iter().sum();
+        for k in 0..3 {
+            assert!((f[3 + k] - powered[k] / sum).abs() < 1e-9, "{line}");
+        }
+    }
+
     let broken = rows.replacen("red,0.2,0.3,0.5", "red,0.2,0.3,0.9", 1);
     std::fs::write(tmp.path().join("b.csv"), broken).unwrap();
     let out = candor(tmp.path())
