@@ -16,6 +16,7 @@
 //! text and comments, so accepting a change is one command and a diff.
 
 use crate::error::{Error, Result};
+use crate::export::escape_xml as xml;
 use crate::metrics;
 use crate::report::{intervals, Interval, Results};
 use crate::store::write_atomic;
@@ -398,13 +399,6 @@ pub fn markdown(o: &Outcome) -> String {
         );
     }
     s
-}
-
-fn xml(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
 }
 
 /// JUnit XML, one test case per rule.

@@ -19,5 +19,13 @@ pub trait Exporter {
     fn render(&self, table: &Table) -> String;
 }
 
+/// Escapes text for XML and HTML content and attribute values.
+pub fn escape_xml(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
 /// The formats every report table is written in.
 pub const TABLE_FORMATS: &[&dyn Exporter] = &[&Markdown, &Csv, &Json];

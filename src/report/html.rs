@@ -3,17 +3,11 @@
 //! resources, so it opens offline and can be attached to a CI job.
 
 use super::{Figure, Results};
+use crate::export::escape_xml as esc;
 use crate::table::{short, Table, Value};
 
 /// The caution every report carries.
 pub const CAUTION: &str = "Benchmark calibration is not validation of a model deployed for decisions about people (for example in credit or medicine). Results on benchmark folds do not carry over to a population, a time period or a use the data did not cover; local regulation and licensed professional judgement apply.";
-
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
 
 fn table_html(t: &Table, keep: impl Fn(&[Value]) -> bool) -> String {
     let mut out = format!("<h3>{}</h3>\n", esc(&t.title));
