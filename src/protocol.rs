@@ -7,7 +7,7 @@
 //! maps to probabilities before the metrics are computed. Preprocessing, the
 //! family and the calibrators only ever see training rows.
 
-use crate::calibrate::Calibrator;
+use crate::calibrate::{Calibration, Calibrator};
 use crate::data::Table;
 use crate::error::{Error, Result};
 use crate::folds;
@@ -136,62 +136,95 @@ pub fn evaluate_methods(
     options: &MetricOptions,
     bootstrap: (usize, u64),
 ) -> Vec<MethodResult> {
-    let k = test.proba.ncols();
+    let fitted = fit_methods(oof, y_oof, test.proba.ncols(), methods);
+    measure_methods(&fitted, test, y_test, metrics, options, bootstrap)
+}
+
+/// One method fitted on held-out scores, or why it could not be.
+pub struct FittedMethod {
+    pub name: String,
+    pub strategy: String,
+    pub calibration: std::result::Result<Box<dyn Calibration>, String>,
+}
+
+/// Fits every method once on held-out scores.
+pub fn fit_methods(
+    oof: &Scores,
+    y_oof: &[usize],
+    k: usize,
+    methods: &[(String, Box<dyn Calibrator>)],
+) -> Vec<FittedMethod> {
     methods
         .iter()
-        .map(|(name, method)| {
-            let strategy = method.strategy(k).to_string();
-            match method.fit(oof, y_oof, k) {
-                Ok(fitted) => {
-                    let p = fitted.apply(test);
-                    let fc = Forecasts::new(p.view(), y_test);
-                    let boot: Vec<&Metric> = metrics
+        .map(|(name, method)| FittedMethod {
+            name: name.clone(),
+            strategy: method.strategy(k).to_string(),
+            calibration: method.fit(oof, y_oof, k).map_err(|e| e.to_string()),
+        })
+        .collect()
+}
+
+/// Applies fitted methods to `test` and measures them against `y_test`.
+pub fn measure_methods(
+    fitted: &[FittedMethod],
+    test: &Scores,
+    y_test: &[usize],
+    metrics: &[&Metric],
+    options: &MetricOptions,
+    bootstrap: (usize, u64),
+) -> Vec<MethodResult> {
+    fitted
+        .iter()
+        .map(|f| match &f.calibration {
+            Ok(calibration) => {
+                let p = calibration.apply(test);
+                let fc = Forecasts::new(p.view(), y_test);
+                let boot: Vec<&Metric> = metrics
+                    .iter()
+                    .copied()
+                    .filter(|m| crate::metrics::BOOTSTRAPPED.contains(&m.name))
+                    .collect();
+                let fns: Vec<MetricFn> = boot.iter().map(|m| m.compute).collect();
+                let seed = derive_seed(bootstrap.1, &["bootstrap", &f.name]);
+                let bounds = if bootstrap.0 > 0 {
+                    intervals(&fc, &fns, options, bootstrap.0, seed)
+                } else {
+                    Vec::new()
+                };
+                MethodResult {
+                    method: f.name.clone(),
+                    strategy: f.strategy.clone(),
+                    metrics: metrics
                         .iter()
-                        .copied()
-                        .filter(|m| crate::metrics::BOOTSTRAPPED.contains(&m.name))
-                        .collect();
-                    let fns: Vec<MetricFn> = boot.iter().map(|m| m.compute).collect();
-                    let seed = derive_seed(bootstrap.1, &["bootstrap", name]);
-                    let bounds = if bootstrap.0 > 0 {
-                        intervals(&fc, &fns, options, bootstrap.0, seed)
-                    } else {
-                        Vec::new()
-                    };
-                    MethodResult {
-                        method: name.clone(),
-                        strategy,
-                        metrics: metrics
-                            .iter()
-                            .map(|m| {
-                                let v = (m.compute)(&fc, options);
-                                (m.name.to_string(), v.is_finite().then_some(v))
-                            })
-                            .collect(),
-                        intervals: boot
-                            .iter()
-                            .zip(bounds)
-                            .map(|(m, [lo, hi])| {
-                                let finite = |v: f64| v.is_finite().then_some(v);
-                                (m.name.to_string(), [finite(lo), finite(hi)])
-                            })
-                            .collect(),
-                        reliability: reliability(&fc, options.bins),
-                        details: fitted.details(test),
-                        warnings: fitted.warnings(),
-                        error: None,
-                    }
+                        .map(|m| {
+                            let v = (m.compute)(&fc, options);
+                            (m.name.to_string(), v.is_finite().then_some(v))
+                        })
+                        .collect(),
+                    intervals: boot
+                        .iter()
+                        .zip(bounds)
+                        .map(|(m, [lo, hi])| {
+                            let finite = |v: f64| v.is_finite().then_some(v);
+                            (m.name.to_string(), [finite(lo), finite(hi)])
+                        })
+                        .collect(),
+                    reliability: reliability(&fc, options.bins),
+                    details: calibration.details(test),
+                    warnings: calibration.warnings(),
+                    error: None,
                 }
-                Err(e) => MethodResult {
-                    method: name.clone(),
-                    strategy,
-                    metrics: BTreeMap::new(),
-                    intervals: BTreeMap::new(),
-                    reliability: Vec::new(),
-                    details: BTreeMap::new(),
-                    warnings: Vec::new(),
-                    error: Some(e.to_string()),
-                },
             }
+            Err(e) => MethodResult {
+                method: f.name.clone(),
+                strategy: f.strategy.clone(),
+                metrics: BTreeMap::new(),
+                intervals: BTreeMap::new(),
+                reliability: Vec::new(),
+                details: BTreeMap::new(),
+                warnings: Vec::new(),
+                error: Some(e.clone()),
+            },
         })
         .collect()
 }

@@ -20,7 +20,7 @@ use crate::manifest::{
 use crate::metrics::{self, Forecasts, MetricOptions};
 use crate::params::Params;
 use crate::predictions::{self, Layout, Predictions};
-use crate::protocol::evaluate_methods;
+use crate::protocol::{fit_methods, measure_methods};
 use crate::store::{write_atomic, CellRecord, Store};
 use serde_json::json;
 use std::collections::BTreeMap;
@@ -140,8 +140,8 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
     let mut records = Vec::new();
     for f in 0..opts.folds {
         let (train, test) = folds::split(&assignment, f);
-        let oof = pred.scores(&train);
-        let y_oof = pred.labels_of(&train);
+        // The maps are fitted once per fold and measured on every segment.
+        let fitted = fit_methods(&pred.scores(&train), &pred.labels_of(&train), k, &methods);
         for (d, dataset) in datasets.iter().enumerate() {
             let rows: Vec<usize> = if d == 0 {
                 test.clone()
@@ -153,12 +153,10 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
             let results = if rows.is_empty() {
                 Vec::new()
             } else {
-                evaluate_methods(
-                    &oof,
-                    &y_oof,
+                measure_methods(
+                    &fitted,
                     &pred.scores(&rows),
                     &pred.labels_of(&rows),
-                    &methods,
                     &metric_list,
                     &options,
                     (
