@@ -270,12 +270,14 @@ impl LayoutArgs {
     fn layout(self, label_required: bool, path: &std::path::Path) -> candor::predictions::Layout {
         // `apply` takes the label column only if the file has one.
         let has_label = label_required
-            || std::fs::read_to_string(path)
+            || std::fs::File::open(path)
                 .ok()
-                .and_then(|t| {
-                    t.lines()
-                        .next()
-                        .map(|h| h.split(',').any(|c| c.trim() == self.label))
+                .and_then(|f| {
+                    // The header line only; the file may be large.
+                    let mut header = String::new();
+                    std::io::BufRead::read_line(&mut std::io::BufReader::new(f), &mut header)
+                        .ok()?;
+                    Some(header.split(',').any(|c| c.trim() == self.label))
                 })
                 .unwrap_or(false);
         candor::predictions::Layout {
