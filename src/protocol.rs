@@ -18,6 +18,7 @@ use crate::metrics::{Forecasts, Metric, MetricFn, MetricOptions};
 use crate::preprocess::Preprocessor;
 use crate::rng::derive_seed;
 use ndarray::{Array2, Axis};
+use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
@@ -82,15 +83,32 @@ pub fn run_cell(
     let y_train: Vec<usize> = plan.train.iter().map(|&r| table.labels[r]).collect();
     let y_test: Vec<usize> = plan.test.iter().map(|&r| table.labels[r]).collect();
 
-    // Out-of-fold scores for every training row.
+    // Out-of-fold scores for every training row from M inner fits, and the
+    // final fit on the whole training split: independent, so they run in
+    // parallel (which also keeps both cores busy on the last cells of a
+    // run); results are placed by index, and the first error in fold order
+    // is reported, so the outcome does not depend on scheduling.
     let inner = folds::stratified(&y_train, k, plan.inner_folds, plan.inner_seed);
+    let mut fits: Vec<Result<Scores>> = (0..=plan.inner_folds)
+        .into_par_iter()
+        .map(|m| {
+            if m == plan.inner_folds {
+                return fit_and_score(table, plan.train, plan.test, learner, k, plan.model_seed);
+            }
+            let (fit_pos, val_pos) = folds::split(&inner, m);
+            let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
+            let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
+            let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
+            fit_and_score(table, &fit_rows, &val_rows, learner, k, seed)
+        })
+        .collect();
+    let test = fits
+        .pop()
+        .ok_or_else(|| Error::Fit("no inner folds".into()))?;
     let mut oof: Option<Scores> = None;
-    for m in 0..plan.inner_folds {
-        let (fit_pos, val_pos) = folds::split(&inner, m);
-        let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
-        let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
-        let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
-        let scores = fit_and_score(table, &fit_rows, &val_rows, learner, k, seed)?;
+    for (m, scores) in fits.into_iter().enumerate() {
+        let scores = scores?;
+        let (_, val_pos) = folds::split(&inner, m);
         let all = oof.get_or_insert_with(|| Scores {
             proba: Array2::zeros((plan.train.len(), scores.proba.ncols())),
             native: scores
@@ -106,8 +124,7 @@ pub fn run_cell(
         }
     }
     let oof = oof.ok_or_else(|| Error::Fit("no inner folds".into()))?;
-
-    let test = fit_and_score(table, plan.train, plan.test, learner, k, plan.model_seed)?;
+    let test = test?;
 
     Ok(evaluate_methods(
         &oof,
