@@ -152,14 +152,16 @@ impl Learner for Ensemble {
 impl Model for Fitted {
     fn predict(&self, x: ArrayView2<'_, f64>) -> Scores {
         let mut proba = Array2::zeros((x.nrows(), self.n_classes));
-        for (row, mut out) in x.rows().into_iter().zip(proba.rows_mut()) {
-            for tree in &self.trees {
+        // Tree by tree, so each tree's nodes stay in cache while every row
+        // descends it; each row still sums its trees in index order.
+        for tree in &self.trees {
+            for (row, mut out) in x.rows().into_iter().zip(proba.rows_mut()) {
                 for (o, v) in out.iter_mut().zip(tree.leaf(row)) {
                     *o += v;
                 }
             }
-            out.mapv_inplace(|v| v / self.trees.len() as f64);
         }
+        proba.mapv_inplace(|v| v / self.trees.len() as f64);
         Scores {
             proba,
             native: None,
