@@ -134,11 +134,11 @@ impl Learner for Ensemble {
             .map(|t| {
                 let mut rng = SplitMix64::new(derive_seed(seed, &["tree", &t.to_string()]));
                 let weights = if self.kind == Kind::Single {
-                    vec![1.0; n]
+                    vec![1u32; n]
                 } else {
-                    let mut w = vec![0.0; n];
+                    let mut w = vec![0u32; n];
                     for _ in 0..n {
-                        w[rng.below(n)] += 1.0;
+                        w[rng.below(n)] += 1;
                     }
                     w
                 };

@@ -155,58 +155,111 @@ impl Tree {
     }
 }
 
+/// A row weight: bootstrap counts (`u32`) or boosting weights (`f64`).
+///
+/// Sums of counts are exact in any order, so a child can take its class
+/// totals from its parent's split instead of summing its rows again;
+/// real-valued weights are always summed row by row in a fixed order.
+pub(crate) trait Weight: Copy + Default + PartialOrd + std::ops::AddAssign {
+    /// Whether sums are exact whatever their order.
+    const EXACT: bool;
+    fn get(self) -> f64;
+    /// `a - b` for `b <= a`.
+    fn minus(a: Self, b: Self) -> Self;
+}
+
+impl Weight for f64 {
+    const EXACT: bool = false;
+    fn get(self) -> f64 {
+        self
+    }
+    fn minus(a: f64, b: f64) -> f64 {
+        a - b
+    }
+}
+
+impl Weight for u32 {
+    const EXACT: bool = true;
+    fn get(self) -> f64 {
+        f64::from(self)
+    }
+    fn minus(a: u32, b: u32) -> u32 {
+        a - b
+    }
+}
+
+/// Scratch space reused by every node of a tree.
+struct Scratch<W> {
+    features: Vec<usize>,
+    hist: Vec<W>,
+    counts: Vec<u32>,
+    left: Vec<W>,
+    best_left: Vec<W>,
+    few: Vec<(u8, W, u32)>,
+}
+
 /// Grows a tree on the rows with positive weight. `weights` are bootstrap
 /// counts or boosting weights.
-pub(crate) fn grow(
+pub(crate) fn grow<W: Weight>(
     data: &Binned,
     y: &[usize],
-    weights: &[f64],
+    weights: &[W],
     n_classes: usize,
     growth: Growth,
     rng: &mut SplitMix64,
 ) -> Tree {
+    let zero = W::default();
     let mut rows: Vec<u32> = (0..data.n as u32)
-        .filter(|&r| weights[r as usize] > 0.0)
+        .filter(|&r| weights[r as usize] > zero)
         .collect();
+    // Weight and class side by side: one memory access per row.
+    let labels: Vec<(W, u32)> = weights.iter().zip(y).map(|(&w, &c)| (w, c as u32)).collect();
     let mut tree = Tree {
         nodes: Vec::new(),
         leaves: Vec::new(),
         n_classes,
     };
-    let mut features: Vec<usize> = (0..data.d()).collect();
-    let mut hist = vec![0.0; MAX_BINS * n_classes];
-    let mut counts = vec![0usize; MAX_BINS];
-    // Work list of (node index, row range, depth), depth first.
+    let mut scratch = Scratch {
+        features: (0..data.d()).collect(),
+        hist: vec![zero; MAX_BINS * n_classes],
+        counts: vec![0; MAX_BINS],
+        left: vec![zero; n_classes],
+        best_left: vec![zero; n_classes],
+        few: Vec::new(),
+    };
+    // Work list of (node index, row range, depth, class totals when known),
+    // depth first.
     tree.nodes.push(Node::Leaf(0));
-    let mut stack = vec![(0usize, 0usize, rows.len(), 0usize)];
-    while let Some((node, start, end, depth)) = stack.pop() {
-        let mut totals = vec![0.0; n_classes];
-        for &r in &rows[start..end] {
-            totals[y[r as usize]] += weights[r as usize];
-        }
+    let mut stack = vec![(0usize, 0usize, rows.len(), 0usize, None)];
+    while let Some((node, start, end, depth, known)) = stack.pop() {
+        let totals: Vec<W> = known.unwrap_or_else(|| {
+            let mut t = vec![zero; n_classes];
+            for &r in &rows[start..end] {
+                let (w, c) = labels[r as usize];
+                t[c as usize] += w;
+            }
+            t
+        });
         let n_rows = end - start;
-        let pure = totals.iter().filter(|&&t| t > 0.0).count() <= 1;
+        let pure = totals.iter().filter(|&&t| t > zero).count() <= 1;
         let split = if pure || depth >= growth.max_depth || n_rows < 2 * growth.min_samples_leaf {
             None
         } else {
             best_split(
                 data,
-                y,
-                weights,
+                &labels,
                 &rows[start..end],
                 &totals,
                 growth,
                 rng,
-                &mut features,
-                &mut hist,
-                &mut counts,
+                &mut scratch,
             )
         };
         match split {
             None => {
-                let w: f64 = totals.iter().sum();
+                let w: f64 = totals.iter().map(|t| t.get()).sum();
                 tree.nodes[node] = Node::Leaf(tree.leaves.len() as u32);
-                tree.leaves.extend(totals.iter().map(|t| t / w));
+                tree.leaves.extend(totals.iter().map(|t| t.get() / w));
             }
             Some((feature, bin)) => {
                 let mid = partition(data, &mut rows[start..end], feature, bin);
@@ -219,31 +272,48 @@ pub(crate) fn grow(
                     left: left as u32,
                     right: left as u32 + 1,
                 };
-                stack.push((left + 1, start + mid, end, depth + 1));
-                stack.push((left, start, start + mid, depth + 1));
+                let (left_totals, right_totals) = if W::EXACT {
+                    let l = scratch.best_left.clone();
+                    let r = totals
+                        .iter()
+                        .zip(&l)
+                        .map(|(&t, &l)| W::minus(t, l))
+                        .collect();
+                    (Some(l), Some(r))
+                } else {
+                    (None, None)
+                };
+                stack.push((left + 1, start + mid, end, depth + 1, right_totals));
+                stack.push((left, start, start + mid, depth + 1, left_totals));
             }
         }
     }
     tree
 }
 
-/// The best (feature, bin) split of a node by weighted Gini, or `None`.
-#[allow(clippy::too_many_arguments)]
-fn best_split(
+/// The best (feature, bin) split of a node by weighted Gini, or `None`;
+/// the left side's class totals are left in `scratch.best_left`.
+fn best_split<W: Weight>(
     data: &Binned,
-    y: &[usize],
-    weights: &[f64],
+    labels: &[(W, u32)],
     rows: &[u32],
-    totals: &[f64],
+    totals: &[W],
     growth: Growth,
     rng: &mut SplitMix64,
-    features: &mut [usize],
-    hist: &mut [f64],
-    counts: &mut [usize],
+    scratch: &mut Scratch<W>,
 ) -> Option<(usize, usize)> {
     let k = totals.len();
-    let total_w: f64 = totals.iter().sum();
-    let parent = totals.iter().map(|t| t * t).sum::<f64>() / total_w;
+    let zero = W::default();
+    let total_w: f64 = totals.iter().map(|t| t.get()).sum();
+    let parent = totals.iter().map(|t| t.get() * t.get()).sum::<f64>() / total_w;
+    let Scratch {
+        features,
+        hist,
+        counts,
+        left,
+        best_left,
+        few,
+    } = scratch;
     let m = growth.features_per_split.clamp(1, features.len());
     // Partial Fisher-Yates: the first m entries become the sample.
     for i in 0..m {
@@ -251,33 +321,27 @@ fn best_split(
         features.swap(i, j);
     }
     let mut best: Option<(f64, usize, usize)> = None;
-    let mut left = vec![0.0; k];
-    // Small nodes sort their few rows by bin instead of scanning every bin.
-    let mut few: Vec<(usize, usize, f64)> = Vec::new();
-    let consider = |b: usize,
-                    left: &[f64],
-                    left_count: usize,
-                    best: &mut Option<(f64, usize, usize)>,
-                    f: usize| {
+    let mut consider = |b: usize, left: &[W], left_count: usize, f: usize| {
         let right_count = rows.len() - left_count;
         if left_count < growth.min_samples_leaf || right_count < growth.min_samples_leaf {
             return;
         }
-        let wl: f64 = left.iter().sum();
+        let wl: f64 = left.iter().map(|v| v.get()).sum();
         let wr = total_w - wl;
         if wl <= 0.0 || wr <= 0.0 {
             return;
         }
-        let sl = left.iter().map(|v| v * v).sum::<f64>() / wl;
+        let sl = left.iter().map(|v| v.get() * v.get()).sum::<f64>() / wl;
         let sr = totals
             .iter()
             .zip(left)
-            .map(|(t, l)| (t - l) * (t - l))
+            .map(|(t, l)| (t.get() - l.get()) * (t.get() - l.get()))
             .sum::<f64>()
             / wr;
         let gain = sl + sr - parent;
         if gain > 1e-12 * total_w && best.is_none_or(|(g, _, _)| gain > g) {
-            *best = Some((gain, f, b));
+            best = Some((gain, f, b));
+            best_left.copy_from_slice(left);
         }
     };
     for &f in features[..m].iter() {
@@ -285,31 +349,34 @@ fn best_split(
         if bins < 2 {
             continue;
         }
-        left.fill(0.0);
+        left.fill(zero);
         let mut left_count = 0;
+        let codes = &data.codes[f * data.n..(f + 1) * data.n];
+        // Small nodes sort their few rows by bin instead of scanning every
+        // bin.
         if rows.len() * 4 < bins {
             few.clear();
             few.extend(rows.iter().map(|&r| {
-                let r = r as usize;
-                (data.code(f, r), y[r], weights[r])
+                let (w, c) = labels[r as usize];
+                (codes[r as usize], w, c)
             }));
             few.sort_unstable_by_key(|e| e.0);
             for i in 0..few.len() - 1 {
-                let (b, c, w) = few[i];
-                left[c] += w;
+                let (b, w, c) = few[i];
+                left[c as usize] += w;
                 left_count += 1;
                 if few[i + 1].0 != b {
-                    consider(b, &left, left_count, &mut best, f);
+                    consider(usize::from(b), left, left_count, f);
                 }
             }
             continue;
         }
-        hist[..bins * k].fill(0.0);
+        hist[..bins * k].fill(zero);
         counts[..bins].fill(0);
         for &r in rows {
-            let r = r as usize;
-            let b = data.code(f, r);
-            hist[b * k + y[r]] += weights[r];
+            let b = usize::from(codes[r as usize]);
+            let (w, c) = labels[r as usize];
+            hist[b * k + c as usize] += w;
             counts[b] += 1;
         }
         for b in 0..bins - 1 {
@@ -319,11 +386,11 @@ fn best_split(
             for c in 0..k {
                 left[c] += hist[b * k + c];
             }
-            left_count += counts[b];
+            left_count += counts[b] as usize;
             if rows.len() - left_count < growth.min_samples_leaf {
                 break;
             }
-            consider(b, &left, left_count, &mut best, f);
+            consider(b, left, left_count, f);
         }
     }
     best.map(|(_, f, b)| (f, b))
