@@ -213,7 +213,11 @@ pub(crate) fn grow<W: Weight>(
         .filter(|&r| weights[r as usize] > zero)
         .collect();
     // Weight and class side by side: one memory access per row.
-    let labels: Vec<(W, u32)> = weights.iter().zip(y).map(|(&w, &c)| (w, c as u32)).collect();
+    let labels: Vec<(W, u32)> = weights
+        .iter()
+        .zip(y)
+        .map(|(&w, &c)| (w, c as u32))
+        .collect();
     let mut tree = Tree {
         nodes: Vec::new(),
         leaves: Vec::new(),
