@@ -196,6 +196,8 @@ struct Scratch<W> {
     left: Vec<W>,
     best_left: Vec<W>,
     few: Vec<(u8, W, u32)>,
+    /// The sampled features whose histograms are built, in sample order.
+    scanned: Vec<usize>,
 }
 
 /// Grows a tree on the rows with positive weight. `weights` are bootstrap
@@ -225,11 +227,12 @@ pub(crate) fn grow<W: Weight>(
     };
     let mut scratch = Scratch {
         features: (0..data.d()).collect(),
-        hist: vec![zero; MAX_BINS * n_classes],
-        counts: vec![0; MAX_BINS],
+        hist: vec![zero; data.d() * MAX_BINS * n_classes],
+        counts: vec![0; data.d() * MAX_BINS],
         left: vec![zero; n_classes],
         best_left: vec![zero; n_classes],
         few: Vec::new(),
+        scanned: Vec::new(),
     };
     // Work list of (node index, row range, depth, class totals when known),
     // depth first.
@@ -317,6 +320,7 @@ fn best_split<W: Weight>(
         left,
         best_left,
         few,
+        scanned,
     } = scratch;
     let m = growth.features_per_split.clamp(1, features.len());
     // Partial Fisher-Yates: the first m entries become the sample.
@@ -348,6 +352,30 @@ fn best_split<W: Weight>(
             best_left.copy_from_slice(left);
         }
     };
+    // Small nodes sort their few rows by bin instead of scanning every bin;
+    // the other sampled features get their histograms in one pass over the
+    // rows, so consecutive updates go to different features' bins and do not
+    // wait on each other, while each bin still adds its rows in order.
+    let few_rows = |bins: usize| rows.len() * 4 < bins;
+    scanned.clear();
+    scanned.extend(features[..m].iter().copied().filter(|&f| {
+        let bins = data.cuts[f].len() + 1;
+        bins >= 2 && !few_rows(bins)
+    }));
+    for (s, &f) in scanned.iter().enumerate() {
+        let bins = data.cuts[f].len() + 1;
+        hist[s * MAX_BINS * k..(s * MAX_BINS + bins) * k].fill(zero);
+        counts[s * MAX_BINS..s * MAX_BINS + bins].fill(0);
+    }
+    for &r in rows {
+        let (w, c) = labels[r as usize];
+        for (s, &f) in scanned.iter().enumerate() {
+            let b = s * MAX_BINS + usize::from(data.codes[f * data.n + r as usize]);
+            hist[b * k + c as usize] += w;
+            counts[b] += 1;
+        }
+    }
+    let mut slot = 0;
     for &f in features[..m].iter() {
         let bins = data.cuts[f].len() + 1;
         if bins < 2 {
@@ -355,10 +383,8 @@ fn best_split<W: Weight>(
         }
         left.fill(zero);
         let mut left_count = 0;
-        let codes = &data.codes[f * data.n..(f + 1) * data.n];
-        // Small nodes sort their few rows by bin instead of scanning every
-        // bin.
-        if rows.len() * 4 < bins {
+        if few_rows(bins) {
+            let codes = &data.codes[f * data.n..(f + 1) * data.n];
             few.clear();
             few.extend(rows.iter().map(|&r| {
                 let (w, c) = labels[r as usize];
@@ -375,14 +401,9 @@ fn best_split<W: Weight>(
             }
             continue;
         }
-        hist[..bins * k].fill(zero);
-        counts[..bins].fill(0);
-        for &r in rows {
-            let b = usize::from(codes[r as usize]);
-            let (w, c) = labels[r as usize];
-            hist[b * k + c as usize] += w;
-            counts[b] += 1;
-        }
+        let hist = &hist[slot * MAX_BINS * k..(slot + 1) * MAX_BINS * k];
+        let counts = &counts[slot * MAX_BINS..(slot + 1) * MAX_BINS];
+        slot += 1;
         for b in 0..bins - 1 {
             if counts[b] == 0 {
                 continue;
