@@ -108,10 +108,12 @@ fn fill(
         .iter()
         .map(|&r| (g[r as usize], h[r as usize]))
         .collect();
-    for f in 0..data.d() {
-        let part = &mut hist[offsets[f]..offsets[f + 1]];
-        for (&r, &(gr, hr)) in rows.iter().zip(&gh) {
-            let e = &mut part[data.code(f, r as usize)];
+    // Row by row, every feature: consecutive updates go to different
+    // features' bins and do not wait on each other, while each bin still
+    // adds its rows in order.
+    for (&r, &(gr, hr)) in rows.iter().zip(&gh) {
+        for (&code, &offset) in data.row(r as usize).iter().zip(offsets) {
+            let e = &mut hist[offset + usize::from(code)];
             e.0 += gr;
             e.1 += hr;
             e.2 += 1;

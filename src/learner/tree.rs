@@ -19,9 +19,12 @@ use ndarray::{ArrayView1, ArrayView2};
 
 pub(crate) const MAX_BINS: usize = 255;
 
-/// Training data cut into bins, column-major.
+/// Training data cut into bins, column-major and row-major: a node's scan
+/// of one feature reads a column, while passes that fill several features'
+/// histograms at once read each row's codes side by side.
 pub(crate) struct Binned {
     codes: Vec<u8>,
+    row_codes: Vec<u8>,
     /// Per feature, increasing cut values: bin b holds values in
     /// (cuts[b - 1], cuts[b]].
     cuts: Vec<Vec<f64>>,
@@ -54,7 +57,24 @@ impl Binned {
             }
             cuts.push(c);
         }
-        Binned { codes, cuts, n }
+        let mut row_codes = vec![0u8; n * d];
+        for f in 0..d {
+            for (i, &code) in codes[f * n..(f + 1) * n].iter().enumerate() {
+                row_codes[i * d + f] = code;
+            }
+        }
+        Binned {
+            codes,
+            row_codes,
+            cuts,
+            n,
+        }
+    }
+
+    /// Every feature's bin for one row.
+    pub(crate) fn row(&self, row: usize) -> &[u8] {
+        let d = self.cuts.len();
+        &self.row_codes[row * d..(row + 1) * d]
     }
 
     pub(crate) fn d(&self) -> usize {
@@ -369,8 +389,9 @@ fn best_split<W: Weight>(
     }
     for &r in rows {
         let (w, c) = labels[r as usize];
+        let codes = data.row(r as usize);
         for (s, &f) in scanned.iter().enumerate() {
-            let b = s * MAX_BINS + usize::from(data.codes[f * data.n + r as usize]);
+            let b = s * MAX_BINS + usize::from(codes[f]);
             hist[b * k + c as usize] += w;
             counts[b] += 1;
         }
