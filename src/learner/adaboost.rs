@@ -10,7 +10,7 @@
 //! multiclass form of the same correction, with F / (K - 1) as the logits.
 //! Boosting stops early when a stump is no better than chance or perfect.
 
-use super::tree::{grow, Binned, Growth, Tree};
+use super::tree::{grow, Binned, Growth, Rows, Tree};
 use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
 use crate::error::{Error, Result};
 use crate::params::{ParamKind, ParamSpec, ParamValue};
@@ -47,7 +47,7 @@ struct Fitted {
 
 /// The stump's predicted class for a row (its leaf's most frequent class;
 /// ties go to the lower index).
-fn vote(tree: &Tree, row: ndarray::ArrayView1<'_, f64>) -> usize {
+fn vote(tree: &Tree, row: &[f64]) -> usize {
     let leaf = tree.leaf(row);
     let mut best = 0;
     for (c, &v) in leaf.iter().enumerate() {
@@ -72,6 +72,7 @@ impl Learner for Boosting {
     ) -> Result<Box<dyn Model>> {
         let n = y.len();
         let data = Binned::new(x);
+        let rows = Rows::new(x);
         let growth = Growth {
             max_depth: 1,
             min_samples_leaf: 1,
@@ -83,9 +84,8 @@ impl Learner for Boosting {
         let k = n_classes as f64;
         for _ in 0..self.rounds {
             let tree = grow(&data, y, &w, n_classes, growth, &mut rng);
-            let wrong: Vec<bool> = x
-                .rows()
-                .into_iter()
+            let wrong: Vec<bool> = rows
+                .iter()
                 .zip(y)
                 .map(|(row, &label)| vote(&tree, row) != label)
                 .collect();
@@ -136,7 +136,7 @@ impl Model for Fitted {
     fn predict(&self, x: ArrayView2<'_, f64>) -> Scores {
         let k = self.n_classes;
         let mut f = Array2::<f64>::zeros((x.nrows(), k));
-        for (row, mut out) in x.rows().into_iter().zip(f.rows_mut()) {
+        for (row, mut out) in Rows::new(x).iter().zip(f.rows_mut()) {
             for (tree, alpha) in &self.stumps {
                 out[vote(tree, row)] += alpha;
             }

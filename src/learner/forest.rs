@@ -7,7 +7,7 @@
 //! from the model seed and the tree's index, and trees are grown in parallel
 //! and averaged in index order, so results do not depend on thread count.
 
-use super::tree::{grow, Binned, Growth, Tree};
+use super::tree::{grow, Binned, Growth, Rows, Tree};
 use super::{Family, Learner, Model, Scores};
 use crate::error::Result;
 use crate::params::{ParamKind, ParamSpec, ParamValue, Params};
@@ -154,8 +154,9 @@ impl Model for Fitted {
         let mut proba = Array2::zeros((x.nrows(), self.n_classes));
         // Tree by tree, so each tree's nodes stay in cache while every row
         // descends it; each row still sums its trees in index order.
+        let rows = Rows::new(x);
         for tree in &self.trees {
-            for (row, mut out) in x.rows().into_iter().zip(proba.rows_mut()) {
+            for (row, mut out) in rows.iter().zip(proba.rows_mut()) {
                 for (o, v) in out.iter_mut().zip(tree.leaf(row)) {
                     *o += v;
                 }

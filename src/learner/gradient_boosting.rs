@@ -11,11 +11,11 @@
 //! rate. There is no sampling, so results are deterministic. F (binary) or
 //! the per-class scores (multiclass) are the native score.
 
-use super::tree::{descend, partition, Binned, Node};
+use super::tree::{descend, partition, Binned, Node, Rows};
 use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
 use crate::error::Result;
 use crate::params::{ParamKind, ParamSpec, ParamValue};
-use ndarray::{Array1, Array2, ArrayView1, ArrayView2};
+use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {
     kind: "gradient_boosting",
@@ -85,7 +85,7 @@ struct RegressionTree {
 }
 
 impl RegressionTree {
-    fn value(&self, x: ArrayView1<'_, f64>) -> f64 {
+    fn value(&self, x: &[f64]) -> f64 {
         descend(&self.nodes, x)
     }
 }
@@ -306,7 +306,7 @@ impl Model for Fitted {
     fn predict(&self, x: ArrayView2<'_, f64>) -> Scores {
         let outputs = self.base.len();
         let mut f = Array2::from_shape_fn((x.nrows(), outputs), |(_, k)| self.base[k]);
-        for (row, mut out) in x.rows().into_iter().zip(f.rows_mut()) {
+        for (row, mut out) in Rows::new(x).iter().zip(f.rows_mut()) {
             for trees in &self.rounds {
                 for (k, tree) in trees.iter().enumerate() {
                     out[k] += tree.value(row);

@@ -15,7 +15,32 @@
 //! class frequencies.
 
 use crate::rng::SplitMix64;
-use ndarray::{ArrayView1, ArrayView2};
+use ndarray::{ArrayView2, CowArray, Ix2};
+
+/// A matrix in row-major order, so that its rows are plain slices for the
+/// descent through a tree (copied only if it is not already).
+pub(crate) struct Rows<'a> {
+    data: CowArray<'a, f64, Ix2>,
+}
+
+impl<'a> Rows<'a> {
+    pub(crate) fn new(x: ArrayView2<'a, f64>) -> Rows<'a> {
+        let data = if x.is_standard_layout() {
+            CowArray::from(x)
+        } else {
+            CowArray::from(x.as_standard_layout().into_owned())
+        };
+        Rows { data }
+    }
+
+    pub(crate) fn iter(&self) -> impl Iterator<Item = &[f64]> {
+        let width = self.data.ncols().max(1);
+        self.data
+            .as_slice()
+            .expect("a standard-layout matrix")
+            .chunks_exact(width)
+    }
+}
 
 pub(crate) const MAX_BINS: usize = 255;
 
@@ -124,7 +149,7 @@ pub(crate) enum Node<L> {
 
 /// The leaf payload a row reaches from the root (node 0); a row goes left
 /// when its value is at most the threshold.
-pub(crate) fn descend<L: Copy>(nodes: &[Node<L>], x: ArrayView1<'_, f64>) -> L {
+pub(crate) fn descend<L: Copy>(nodes: &[Node<L>], x: &[f64]) -> L {
     let mut i = 0;
     loop {
         match nodes[i] {
@@ -169,7 +194,7 @@ pub(crate) struct Tree {
 
 impl Tree {
     /// The class frequencies of the leaf a row falls in.
-    pub(crate) fn leaf(&self, x: ArrayView1<'_, f64>) -> &[f64] {
+    pub(crate) fn leaf(&self, x: &[f64]) -> &[f64] {
         let o = descend(&self.nodes, x) as usize;
         &self.leaves[o..o + self.n_classes]
     }
@@ -466,11 +491,11 @@ mod tests {
         };
         let tree = grow(&data, &y, &[1.0; 6], 2, growth, &mut SplitMix64::new(1));
         for (row, &label) in x.rows().into_iter().zip(&y) {
-            assert_eq!(tree.leaf(row)[label], 1.0);
+            assert_eq!(tree.leaf(row.as_slice().unwrap())[label], 1.0);
         }
         // A value between the training values goes by the midpoint cut.
-        assert_eq!(tree.leaf(array![2.4, 2.6].view())[0], 1.0);
-        assert_eq!(tree.leaf(array![2.6, 2.4].view())[1], 1.0);
+        assert_eq!(tree.leaf(&[2.4, 2.6])[0], 1.0);
+        assert_eq!(tree.leaf(&[2.6, 2.4])[1], 1.0);
     }
 
     #[test]
@@ -491,7 +516,7 @@ mod tests {
             growth,
             &mut SplitMix64::new(1),
         );
-        assert_eq!(tree.leaf(array![0.0].view()), &[0.75, 0.25]);
+        assert_eq!(tree.leaf(&[0.0]), &[0.75, 0.25]);
     }
 
     #[test]
