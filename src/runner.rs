@@ -86,9 +86,17 @@ struct FingerprintInput<'a> {
     dataset: &'a crate::manifest::DatasetSpec,
     data_sha256: &'a str,
     family: &'a crate::manifest::FamilySpec,
+    /// Left out at zero, so cells made before revisions existed keep their
+    /// fingerprints.
+    #[serde(skip_serializing_if = "is_zero")]
+    family_revision: u32,
     methods: &'a [String],
     calibration: &'a crate::calibrate::Settings,
     metrics: &'a [String],
+}
+
+fn is_zero(n: &u32) -> bool {
+    *n == 0
 }
 
 fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
@@ -104,6 +112,7 @@ fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
         dataset: &exp.datasets[d],
         data_sha256: &table.sha256,
         family: &exp.families[f],
+        family_revision: learner::find(&exp.families[f].kind).map_or(0, |k| k.revision),
         methods: &exp.methods,
         calibration: &exp.calibration,
         metrics: &exp.metrics,

@@ -34,6 +34,7 @@ pub const FAMILY: Family = Family {
             rounds: p.int("rounds") as usize,
         })
     },
+    revision: 0,
 };
 
 struct Boosting {

@@ -37,6 +37,7 @@ pub const TREE: Family = Family {
     about: "one classification tree (Gini); probabilities are leaf class frequencies",
     params: &[MAX_DEPTH, MIN_LEAF_5],
     build: |p| Box::new(Ensemble::from_params(p, Kind::Single)),
+    revision: 0,
 };
 
 pub const RANDOM_FOREST: Family = Family {
@@ -44,6 +45,7 @@ pub const RANDOM_FOREST: Family = Family {
     about: "random forest: bootstrap rows, sqrt(features) per split, mean leaf frequencies",
     params: &[TREES, MAX_DEPTH, MIN_LEAF_1],
     build: |p| Box::new(Ensemble::from_params(p, Kind::Forest)),
+    revision: 0,
 };
 
 pub const BAGGED_TREES: Family = Family {
@@ -51,6 +53,7 @@ pub const BAGGED_TREES: Family = Family {
     about: "bagged trees: bootstrap rows, every feature per split, mean leaf frequencies",
     params: &[TREES, MAX_DEPTH, MIN_LEAF_1],
     build: |p| Box::new(Ensemble::from_params(p, Kind::Bagging)),
+    revision: 0,
 };
 
 const MIN_LEAF_5: ParamSpec = ParamSpec {

@@ -70,6 +70,7 @@ pub const FAMILY: Family = Family {
             l2: p.float("l2"),
         })
     },
+    revision: 0,
 };
 
 struct Boosting {

@@ -31,6 +31,7 @@ pub const FAMILY: Family = Family {
             k: p.int("k") as usize,
         })
     },
+    revision: 0,
 };
 
 /// Queries per block of the distance matrix. The block's products are

@@ -45,6 +45,7 @@ pub const FAMILY: Family = Family {
             max_iter: p.int("max_iter") as u64,
         })
     },
+    revision: 0,
 };
 
 struct Logistic {

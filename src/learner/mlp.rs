@@ -89,6 +89,8 @@ pub const FAMILY: Family = Family {
             tol: p.float("tol"),
         })
     },
+    // 1: our own blocked matrix product and Adam's folded step size.
+    revision: 1,
 };
 
 struct Mlp {
@@ -588,6 +590,111 @@ impl Model for Fitted {
         Scores {
             proba: lp.mapv(f64::exp),
             native: Some(logits),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn filled(len: usize, rng: &mut SplitMix64) -> Vec<f64> {
+        (0..len).map(|_| 2.0 * rng.unit() - 1.0).collect()
+    }
+
+    #[test]
+    fn the_blocked_product_equals_the_plain_triple_loop_bit_for_bit() {
+        let mut rng = SplitMix64::new(7);
+        // Shapes that hit full blocks, edge columns and an odd last row.
+        for &(m, q, n) in &[
+            (5, 3, 37),
+            (200, 10, 64),
+            (2, 200, 16),
+            (7, 1, 1),
+            (64, 57, 2),
+        ] {
+            let a = filled(m * q, &mut rng);
+            let b = filled(q * n, &mut rng);
+            let bias = filled(n, &mut rng);
+            let mut c = vec![0.0; m * n];
+            gemm(&mut c, n, Strided::rows(&a, q), &b, Some(&bias));
+            let mut ct = vec![0.0; m * n];
+            // The transposed view of a's transpose is a again.
+            let at: Vec<f64> = (0..q * m).map(|i| a[(i % m) * q + i / m]).collect();
+            gemm(&mut ct, n, Strided::columns(&at, m), &b, Some(&bias));
+            for i in 0..m {
+                for j in 0..n {
+                    let mut want = bias[j];
+                    for p in 0..q {
+                        want += a[i * q + p] * b[p * n + j];
+                    }
+                    assert_eq!(
+                        c[i * n + j].to_bits(),
+                        want.to_bits(),
+                        "({m},{q},{n}) at ({i},{j})"
+                    );
+                    assert_eq!(ct[i * n + j].to_bits(), want.to_bits());
+                }
+            }
+        }
+    }
+
+    /// Mean log loss of a net on rows `x`, for the finite differences.
+    fn net_loss(net: &Net, x: &[f64], y: &[usize]) -> f64 {
+        loss(net.logits(x), net.outputs(), y)
+    }
+
+    #[test]
+    fn back_propagation_matches_finite_differences() {
+        // Two hidden layers, a narrow and a wide output, three classes.
+        let mut rng = SplitMix64::new(11);
+        let net = Net::new(&[5, 12, 9, 3], &mut rng);
+        let m = 7;
+        let x = filled(m * 5, &mut rng);
+        let y: Vec<usize> = (0..m).map(|i| i % 3).collect();
+        let mut acts = vec![Vec::new(); 3];
+        net.forward(&x, &mut acts);
+        let mut delta = acts[2].clone();
+        log_softmax(&mut delta, 3);
+        for (row, &c) in delta.chunks_exact_mut(3).zip(&y) {
+            row.iter_mut().for_each(|v| *v = v.exp());
+            row[c] -= 1.0;
+            row.iter_mut().for_each(|v| *v /= m as f64);
+        }
+        for l in (0..3).rev() {
+            let layer = &net.layers[l];
+            let input = if l == 0 { &x } else { &acts[l - 1] };
+            let (mut gw, mut gt, mut gb) = (
+                vec![0.0; layer.w.len()],
+                vec![0.0; layer.w.len()],
+                vec![0.0; layer.n_out],
+            );
+            layer.gradient(input, &delta, &mut gw, &mut gt, &mut gb);
+            // Central differences on a few weights and every bias.
+            let h = 1e-6;
+            for i in (0..layer.w.len()).step_by(5) {
+                let mut plus = net.clone();
+                plus.layers[l].w[i] += h;
+                plus.layers[l].transpose();
+                let mut minus = net.clone();
+                minus.layers[l].w[i] -= h;
+                minus.layers[l].transpose();
+                let numeric = (net_loss(&plus, &x, &y) - net_loss(&minus, &x, &y)) / (2.0 * h);
+                assert!((numeric - gw[i]).abs() < 1e-7, "layer {l} weight {i}");
+            }
+            for j in 0..layer.n_out {
+                let mut plus = net.clone();
+                plus.layers[l].b[j] += h;
+                let mut minus = net.clone();
+                minus.layers[l].b[j] -= h;
+                let numeric = (net_loss(&plus, &x, &y) - net_loss(&minus, &x, &y)) / (2.0 * h);
+                assert!((numeric - gb[j]).abs() < 1e-7, "layer {l} bias {j}");
+            }
+            if l > 0 {
+                let mut back = vec![0.0; m * layer.n_in];
+                layer.backward(&delta, input, &mut back);
+                delta = back;
+            }
         }
     }
 }

@@ -69,6 +69,10 @@ pub struct Family {
     pub params: &'static [ParamSpec],
     /// Builds a learner; the parameters have been checked against `params`.
     pub build: fn(&Params) -> Box<dyn Learner>,
+    /// Raised whenever a change to the algorithm changes its results within
+    /// one candor version, so that a resumed run does not reuse cells the
+    /// earlier algorithm computed (it is part of every cell's fingerprint).
+    pub revision: u32,
 }
 
 /// Every family candor knows, in the order `candor list families` lists them.

@@ -26,6 +26,7 @@ pub const FAMILY: Family = Family {
             var_smoothing: p.float("var_smoothing"),
         })
     },
+    revision: 0,
 };
 
 struct NaiveBayesLearner {

@@ -65,6 +65,7 @@ pub const FAMILY: Family = Family {
             tol: p.float("tol"),
         })
     },
+    revision: 0,
 };
 
 struct Svm {
