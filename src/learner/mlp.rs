@@ -141,6 +141,7 @@ impl Layer {
         layer
     }
 
+    #[inline(always)]
     fn transpose(&mut self) {
         for k in 0..self.n_in {
             for j in 0..self.n_out {
@@ -150,6 +151,7 @@ impl Layer {
     }
 
     /// `out = a w + b` for the rows of `a` (`m x n_in`).
+    #[inline(always)]
     fn forward(&self, a: &[f64], out: &mut [f64]) {
         let (n_in, n_out) = (self.n_in, self.n_out);
         if n_out < NARROW {
@@ -166,6 +168,7 @@ impl Layer {
     /// The weight and bias gradients of the batch (`a` the layer's input,
     /// `delta` the loss gradient at its output), into `gw` (`n_in x n_out`)
     /// and `gb`; `gt` is scratch for the transposed form.
+    #[inline(always)]
     fn gradient(&self, a: &[f64], delta: &[f64], gw: &mut [f64], gt: &mut [f64], gb: &mut [f64]) {
         let (n_in, n_out) = (self.n_in, self.n_out);
         gb.fill(0.0);
@@ -189,6 +192,7 @@ impl Layer {
 
     /// The loss gradient at the layer's input, given it at the output and
     /// the input's ReLU activations `a` (zero where the unit was off).
+    #[inline(always)]
     fn backward(&self, delta: &[f64], a: &[f64], out: &mut [f64]) {
         gemm(
             out,
@@ -203,21 +207,22 @@ impl Layer {
     }
 }
 
-/// A dot product in four running sums (a fixed order, so the compiler can
+/// A dot product in eight running sums (a fixed order, so the compiler can
 /// vectorise it without changing the result).
+#[inline(always)]
 fn dot(a: &[f64], b: &[f64]) -> f64 {
-    let mut s = [0.0; 4];
-    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
-    let (ar, br) = (a4.remainder(), b4.remainder());
-    for (x, y) in a4.zip(b4) {
-        for t in 0..4 {
+    let mut s = [0.0; 8];
+    let (a8, b8) = (a.chunks_exact(8), b.chunks_exact(8));
+    let (ar, br) = (a8.remainder(), b8.remainder());
+    for (x, y) in a8.zip(b8) {
+        for t in 0..8 {
             s[t] += x[t] * y[t];
         }
     }
     for (t, (x, y)) in ar.iter().zip(br).enumerate() {
         s[t] += x * y;
     }
-    (s[0] + s[1]) + (s[2] + s[3])
+    ((s[0] + s[1]) + (s[2] + s[3])) + ((s[4] + s[5]) + (s[6] + s[7]))
 }
 
 /// A matrix read through strides: element (i, p) is `data[i * row + p * col]`,
@@ -260,25 +265,8 @@ const BLOCK: usize = 16;
 /// row-major `q x n`. Every element is its bias (or zero) plus the products
 /// added in order of p, however the work is blocked or vectorised, so the
 /// result does not depend on the instruction set.
-fn gemm(c: &mut [f64], n: usize, a: Strided<'_>, b: &[f64], bias: Option<&[f64]>) {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") {
-        // SAFETY: the processor has just been found to support AVX2.
-        return unsafe { gemm_avx2(c, n, a, b, bias) };
-    }
-    gemm_any(c, n, a, b, bias);
-}
-
-/// [`gemm`] compiled for AVX2: the same arithmetic on wider registers (no
-/// fused multiply-add, which would round differently).
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-fn gemm_avx2(c: &mut [f64], n: usize, a: Strided<'_>, b: &[f64], bias: Option<&[f64]>) {
-    gemm_any(c, n, a, b, bias);
-}
-
 #[inline(always)]
-fn gemm_any(c: &mut [f64], n: usize, a: Strided<'_>, b: &[f64], bias: Option<&[f64]>) {
+fn gemm(c: &mut [f64], n: usize, a: Strided<'_>, b: &[f64], bias: Option<&[f64]>) {
     let m = c.len() / n;
     let q = a.depth;
     let start = |j: usize| -> [f64; BLOCK] {
@@ -364,12 +352,14 @@ impl Net {
         }
     }
 
+    #[inline(always)]
     fn outputs(&self) -> usize {
         self.layers[self.layers.len() - 1].n_out
     }
 
     /// Every layer's output for the rows of `x` (`m x n_in`, row-major)
     /// into `acts`; the last holds the logits.
+    #[inline(always)]
     fn forward(&self, x: &[f64], acts: &mut [Vec<f64>]) {
         let m = x.len() / self.layers[0].n_in;
         let last = self.layers.len() - 1;
@@ -386,6 +376,7 @@ impl Net {
     }
 
     /// The logits of the rows of `x`, a block of rows at a time.
+    #[inline(always)]
     fn logits(&self, x: &[f64]) -> Vec<f64> {
         let n_in = self.layers[0].n_in;
         let mut acts = vec![Vec::new(); self.layers.len()];
@@ -399,6 +390,7 @@ impl Net {
 }
 
 /// Log-softmax of each row of `z` (`k` columns), in place.
+#[inline(always)]
 fn log_softmax(z: &mut [f64], k: usize) {
     for row in z.chunks_exact_mut(k) {
         let max = row.iter().copied().fold(f64::NEG_INFINITY, f64::max);
@@ -408,7 +400,20 @@ fn log_softmax(z: &mut [f64], k: usize) {
     }
 }
 
+/// The softmax of one row of logits, in place.
+#[inline(always)]
+fn softmax(row: &mut [f64]) {
+    let max = row.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let mut sum = 0.0;
+    for v in row.iter_mut() {
+        *v = (*v - max).exp();
+        sum += *v;
+    }
+    row.iter_mut().for_each(|v| *v /= sum);
+}
+
 /// Mean log loss of logits `z` (`k` columns) against the labels.
+#[inline(always)]
 fn loss(mut z: Vec<f64>, k: usize, y: &[usize]) -> f64 {
     log_softmax(&mut z, k);
     -y.iter()
@@ -441,6 +446,7 @@ const EPS: f64 = 1e-8;
 /// of computation (section 2): the bias corrections fold into the step size,
 /// `lr_t = lr sqrt(1 - beta2^t) / (1 - beta1^t)`, and
 /// `p -= lr_t m / (sqrt(v) + eps)`.
+#[inline(always)]
 fn adam(lr_t: f64, params: &mut [f64], grads: &[f64], moments: &mut Moments) {
     for (((p, &g), m), v) in params
         .iter_mut()
@@ -493,8 +499,51 @@ impl Learner for Mlp {
             sizes.push(self.hidden2);
         }
         sizes.push(n_classes);
-        let mut net = Net::new(&sizes, &mut rng);
+        let net = Net::new(&sizes, &mut rng);
+        let data = Split {
+            xt: &xt,
+            yt: &yt,
+            xv: &xv,
+            yv: &yv,
+        };
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the processor has just been found to support AVX2.
+            let net = unsafe { self.train_avx2(net, data, rng) }?;
+            return Ok(Box::new(Fitted { net }));
+        }
+        let net = self.train(net, data, rng)?;
+        Ok(Box::new(Fitted { net }))
+    }
+}
+
+/// The training and validation rows, row-major, with their labels.
+#[derive(Clone, Copy)]
+struct Split<'a> {
+    xt: &'a [f64],
+    yt: &'a [usize],
+    xv: &'a [f64],
+    yv: &'a [usize],
+}
+
+impl Mlp {
+    /// [`Mlp::train`] compiled for AVX2: the same arithmetic in wider
+    /// registers (no fused multiply-add, which would round differently), so
+    /// the results do not depend on the processor.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn train_avx2(&self, net: Net, data: Split<'_>, rng: SplitMix64) -> Result<Net> {
+        self.train(net, data, rng)
+    }
+
+    /// Adam in mini-batches until the validation loss stops falling;
+    /// returns the net of the best validation loss.
+    #[inline(always)]
+    fn train(&self, mut net: Net, data: Split<'_>, mut rng: SplitMix64) -> Result<Net> {
+        let Split { xt, yt, xv, yv } = data;
         let layers = net.layers.len();
+        let d = net.layers[0].n_in;
+        let n_classes = net.outputs();
         let mut mw: Vec<Moments> = net.layers.iter().map(|l| Moments::new(l.w.len())).collect();
         let mut mb: Vec<Moments> = net.layers.iter().map(|l| Moments::new(l.b.len())).collect();
         let mut gw: Vec<Vec<f64>> = net.layers.iter().map(|l| vec![0.0; l.w.len()]).collect();
@@ -506,10 +555,10 @@ impl Learner for Mlp {
         let mut xb: Vec<f64> = Vec::with_capacity(self.batch * d);
 
         let mut step = 0i32;
-        let mut best = (loss(net.logits(&xv), n_classes, &yv), net.clone());
+        let mut best = (loss(net.logits(xv), n_classes, yv), net.clone());
         let mut stale = 0;
-        let mut order: Vec<usize> = (0..train.len()).collect();
-        let decay = self.l2 / train.len() as f64;
+        let mut order: Vec<usize> = (0..yt.len()).collect();
+        let decay = self.l2 / yt.len() as f64;
         for _ in 0..self.max_epochs {
             rng.shuffle(&mut order);
             for chunk in order.chunks(self.batch) {
@@ -521,9 +570,8 @@ impl Learner for Mlp {
                 // d loss / d logits = softmax - onehot, averaged.
                 let m = chunk.len() as f64;
                 delta.clone_from(&acts[layers - 1]);
-                log_softmax(&mut delta, n_classes);
                 for (row, &i) in delta.chunks_exact_mut(n_classes).zip(chunk) {
-                    row.iter_mut().for_each(|v| *v = v.exp());
+                    softmax(row);
                     row[yt[i]] -= 1.0;
                     row.iter_mut().for_each(|v| *v /= m);
                 }
@@ -549,7 +597,7 @@ impl Learner for Mlp {
                     layer.transpose();
                 }
             }
-            let v = loss(net.logits(&xv), n_classes, &yv);
+            let v = loss(net.logits(xv), n_classes, yv);
             if !v.is_finite() {
                 return Err(Error::Fit(
                     "the multilayer perceptron diverged; lower `learning_rate`".into(),
@@ -565,7 +613,7 @@ impl Learner for Mlp {
                 }
             }
         }
-        Ok(Box::new(Fitted { net: best.1 }))
+        Ok(best.1)
     }
 }
 
