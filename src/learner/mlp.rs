@@ -687,6 +687,51 @@ mod tests {
         }
     }
 
+    #[cfg(target_arch = "x86_64")]
+    #[test]
+    fn the_avx2_build_trains_the_same_net_bit_for_bit() {
+        if !std::arch::is_x86_feature_detected!("avx2") {
+            return;
+        }
+        let mut rng = SplitMix64::new(3);
+        let (n, d) = (300, 6);
+        let xt = filled(n * d, &mut rng);
+        let yt: Vec<usize> = xt
+            .chunks(d)
+            .map(|r| usize::from(r[0] + r[1] > 0.0))
+            .collect();
+        let xv = filled(60 * d, &mut rng);
+        let yv: Vec<usize> = xv
+            .chunks(d)
+            .map(|r| usize::from(r[0] + r[1] > 0.0))
+            .collect();
+        let data = Split {
+            xt: &xt,
+            yt: &yt,
+            xv: &xv,
+            yv: &yv,
+        };
+        let mlp = Mlp {
+            hidden: 20,
+            hidden2: 9,
+            learning_rate: 1e-2,
+            l2: 1e-4,
+            batch: 32,
+            max_epochs: 5,
+            patience: 10,
+            tol: 1e-4,
+        };
+        let net = Net::new(&[d, 20, 9, 2], &mut rng);
+        let plain = mlp.train(net.clone(), data, SplitMix64::new(9)).unwrap();
+        // SAFETY: AVX2 support was checked above.
+        let wide = unsafe { mlp.train_avx2(net, data, SplitMix64::new(9)) }.unwrap();
+        for (a, b) in plain.layers.iter().zip(&wide.layers) {
+            let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+            assert_eq!(bits(&a.w), bits(&b.w));
+            assert_eq!(bits(&a.b), bits(&b.b));
+        }
+    }
+
     /// Mean log loss of a net on rows `x`, for the finite differences.
     fn net_loss(net: &Net, x: &[f64], y: &[usize]) -> f64 {
         loss(net.logits(x), net.outputs(), y)
