@@ -95,19 +95,42 @@ impl Model for Fitted {
             let mut cross = buffer.slice_mut(s![..end - start, ..]);
             general_mat_mul(1.0, &block, &self.x.t(), 0.0, &mut cross);
             for (i, row) in cross.rows().into_iter().enumerate() {
+                let row = row.as_slice().expect("a row of the product buffer");
                 best.clear();
-                // |q|^2 is the same for every training row, so it is left
-                // out of the ranking.
-                for (j, (&c, &nj)) in row.iter().zip(&self.norms).enumerate() {
-                    let dist = nj - 2.0 * c;
-                    // Rows come in index order, so a tie with the k-th
-                    // loses: the lower index wins, as documented.
-                    if best.len() == self.k && dist >= best[self.k - 1].0 {
-                        continue;
+                // Eight rows at a time: a vectorised test whether any of
+                // them could enter the list, then the exact scalar pass for
+                // the few groups that can.
+                let mut worst = f64::INFINITY;
+                for (g, (cs, ns)) in row
+                    .chunks(8)
+                    .zip(self.norms.as_slice().expect("norms").chunks(8))
+                    .enumerate()
+                {
+                    if best.len() == self.k {
+                        let mut any = false;
+                        for (&c, &nj) in cs.iter().zip(ns) {
+                            any |= nj - 2.0 * c < worst;
+                        }
+                        if !any {
+                            continue;
+                        }
                     }
-                    let at = best.partition_point(|&(d, _)| d <= dist);
-                    best.insert(at, (dist, j as u32));
-                    best.truncate(self.k);
+                    for (t, (&c, &nj)) in cs.iter().zip(ns).enumerate() {
+                        // |q|^2 is the same for every training row, so it is
+                        // left out of the ranking.
+                        let dist = nj - 2.0 * c;
+                        // Rows come in index order, so a tie with the k-th
+                        // loses: the lower index wins, as documented.
+                        if best.len() == self.k && dist >= worst {
+                            continue;
+                        }
+                        let at = best.partition_point(|&(d, _)| d <= dist);
+                        best.insert(at, (dist, (g * 8 + t) as u32));
+                        best.truncate(self.k);
+                        if best.len() == self.k {
+                            worst = best[self.k - 1].0;
+                        }
+                    }
                 }
                 let mut out = proba.row_mut(start + i);
                 for &(_, j) in &best {
