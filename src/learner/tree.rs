@@ -401,7 +401,10 @@ fn best_split<W: Weight>(
     // the other sampled features get their histograms in one pass over the
     // rows, so consecutive updates go to different features' bins and do not
     // wait on each other, while each bin still adds its rows in order.
-    let few_rows = |bins: usize| rows.len() * 4 < bins;
+    // With counts both ways give the same sums, and sorting up to 1/8 of
+    // the bins' worth of rows measured fastest; real-valued weights keep 1/4,
+    // as the two ways add them in different orders.
+    let few_rows = |bins: usize| rows.len() * if W::EXACT { 8 } else { 4 } < bins;
     scanned.clear();
     scanned.extend(features[..m].iter().copied().filter(|&f| {
         let bins = data.cuts[f].len() + 1;
