@@ -523,6 +523,31 @@ mod tests {
     }
 
     #[test]
+    fn counts_and_the_same_weights_as_reals_grow_the_same_tree() {
+        // The count path takes shortcuts (inherited totals, a different
+        // sorting threshold) that are exact only because integer sums are;
+        // the real-valued path sums every node afresh.
+        let mut rng = SplitMix64::new(5);
+        let (n, d) = (3000, 6);
+        let x = ndarray::Array2::from_shape_fn((n, d), |_| (rng.unit() * 40.0).floor());
+        let y: Vec<usize> = (0..n)
+            .map(|i| usize::from(x[[i, 0]] + x[[i, 1]] + 10.0 * rng.unit() > 45.0))
+            .collect();
+        let counts: Vec<u32> = (0..n).map(|_| rng.below(4) as u32).collect();
+        let reals: Vec<f64> = counts.iter().map(|&c| f64::from(c)).collect();
+        let data = Binned::new(x.view());
+        let growth = Growth {
+            max_depth: 64,
+            min_samples_leaf: 1,
+            features_per_split: 2,
+        };
+        let a = grow(&data, &y, &counts, 2, growth, &mut SplitMix64::new(9));
+        let b = grow(&data, &y, &reals, 2, growth, &mut SplitMix64::new(9));
+        assert!(a.nodes.len() > 100);
+        assert_eq!(format!("{a:?}"), format!("{b:?}"));
+    }
+
+    #[test]
     fn many_distinct_values_are_cut_at_quantiles() {
         let x = ndarray::Array2::from_shape_fn((1000, 1), |(i, _)| (i * 7 % 1000) as f64);
         let data = Binned::new(x.view());
