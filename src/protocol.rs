@@ -89,13 +89,15 @@ pub fn run_cell(
     // run); results are placed by index, and the first error in fold order
     // is reported, so the outcome does not depend on scheduling.
     let inner = folds::stratified(&y_train, k, plan.inner_folds, plan.inner_seed);
+    let splits: Vec<(Vec<usize>, Vec<usize>)> = (0..plan.inner_folds)
+        .map(|m| folds::split(&inner, m))
+        .collect();
     let mut fits: Vec<Result<Scores>> = (0..=plan.inner_folds)
         .into_par_iter()
         .map(|m| {
-            if m == plan.inner_folds {
+            let Some((fit_pos, val_pos)) = splits.get(m) else {
                 return fit_and_score(table, plan.train, plan.test, learner, k, plan.model_seed);
-            }
-            let (fit_pos, val_pos) = folds::split(&inner, m);
+            };
             let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
             let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
             let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
@@ -106,9 +108,8 @@ pub fn run_cell(
         .pop()
         .ok_or_else(|| Error::Fit("no inner folds".into()))?;
     let mut oof: Option<Scores> = None;
-    for (m, scores) in fits.into_iter().enumerate() {
+    for (scores, (_, val_pos)) in fits.into_iter().zip(&splits) {
         let scores = scores?;
-        let (_, val_pos) = folds::split(&inner, m);
         let all = oof.get_or_insert_with(|| Scores {
             proba: Array2::zeros((plan.train.len(), scores.proba.ncols())),
             native: scores
