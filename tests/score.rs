@@ -58,22 +58,28 @@ fn estimated_ece_converges_to_the_known_true_ece() {
     assert!(large < 0.002, "{large}");
 }
 
-#[test]
-fn score_reports_the_demo_and_finds_its_known_flaws() {
-    let tmp = tempfile::tempdir().unwrap();
-    ok(candor(tmp.path()).args(["demo", "--rows", "20000", "--out", "d.csv"]));
-    ok(candor(tmp.path()).args([
+/// `candor score` on the demo's `d.csv` by region, without bootstrap
+/// intervals, plus `extra` arguments.
+fn score_demo(dir: &Path, extra: &[&str]) {
+    let mut args = vec![
         "score",
         "d.csv",
         "--label",
         "late",
         "--group",
         "region",
-        "--model",
-        "coop",
         "--bootstrap",
         "0",
-    ]));
+    ];
+    args.extend_from_slice(extra);
+    ok(candor(dir).args(&args));
+}
+
+#[test]
+fn score_reports_the_demo_and_finds_its_known_flaws() {
+    let tmp = tempfile::tempdir().unwrap();
+    ok(candor(tmp.path()).args(["demo", "--rows", "20000", "--out", "d.csv"]));
+    score_demo(tmp.path(), &["--model", "coop"]);
     let dir = tmp.path().join("results/score-d");
     for f in [
         "summary.csv",
@@ -170,20 +176,7 @@ fn saved_maps_apply_as_documented() {
     ok(candor(tmp.path()).args(["demo", "--rows", "3000", "--out", "d.csv"]));
     for method in ["platt", "isotonic", "histogram", "beta", "temperature"] {
         let file = format!("{method}.json");
-        ok(candor(tmp.path()).args([
-            "score",
-            "d.csv",
-            "--label",
-            "late",
-            "--group",
-            "region",
-            "--bootstrap",
-            "0",
-            "--fit",
-            method,
-            "--save",
-            &file,
-        ]));
+        score_demo(tmp.path(), &["--fit", method, "--save", &file]);
         let map: serde_json::Value =
             serde_json::from_str(&std::fs::read_to_string(tmp.path().join(&file)).unwrap())
                 .unwrap();
