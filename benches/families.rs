@@ -5,9 +5,9 @@
 //! scripts/bench-peer.sh compares whole grids with scikit-learn.
 
 use candor::catalog::Catalog;
+use candor::common::params::Params;
 use candor::learner::FAMILIES;
 use candor::manifest::{DataSource, DatasetSpec};
-use candor::params::Params;
 use candor::preprocess::Preprocessor;
 use std::path::Path;
 use std::time::Instant;

@@ -5,8 +5,8 @@
 //! size of the numeric matrix (8 bytes per cell). Run with
 //! `cargo bench --bench load [ROWS]`; the README quotes the figures.
 
+use candor::common::rng::SplitMix64;
 use candor::data::{read_csv, CsvFormat};
-use candor::rng::SplitMix64;
 use std::io::{BufWriter, Write};
 use std::time::Instant;
 

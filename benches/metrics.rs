@@ -3,9 +3,9 @@
 //! ones). Run with `cargo bench --bench metrics`; the README quotes the
 //! figures. The target is well under one second for all binary metrics.
 
+use candor::common::rng::SplitMix64;
 use candor::metrics::reliability::reliability;
 use candor::metrics::{Forecasts, MetricOptions, METRICS};
-use candor::rng::SplitMix64;
 use ndarray::Array2;
 use std::time::Instant;
 

@@ -5,7 +5,7 @@
 //! every load verifies, so a corrupted or edited copy is never benchmarked
 //! silently.
 
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
 
@@ -101,7 +101,7 @@ impl Catalog {
     pub fn read_verified(&self, entry: &Entry) -> Result<Vec<u8>> {
         let path = self.dir.join(&entry.file);
         let bytes = std::fs::read(&path).map_err(|e| Error::io(&path, "read", &e))?;
-        let actual = crate::manifest::hex_sha256(&bytes);
+        let actual = crate::common::checksum::hex_sha256(&bytes);
         if actual != entry.sha256 {
             return Err(Error::Data(format!(
                 "{}: checksum mismatch (expected {}, found {actual}); the bundled file was changed or damaged, restore it with `git checkout -- {}`",

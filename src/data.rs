@@ -7,11 +7,11 @@
 //! in [`crate::preprocess`].
 
 use crate::catalog::Catalog;
-use crate::error::{Error, Result};
+use crate::common::checksum::{hex_sha256, hex_sha256_of};
+use crate::common::error::{Error, Result};
 use crate::manifest::{DataSource, DatasetSpec, Evaluation};
 use flate2::read::MultiGzDecoder;
 use serde::{Deserialize, Serialize};
-use sha2::{Digest, Sha256};
 use std::collections::HashMap;
 use std::io::{BufRead, Read};
 use std::path::Path;
@@ -171,7 +171,7 @@ type Opener<'a> = dyn FnMut() -> Result<Box<dyn Read + 'a>> + 'a;
 
 /// Parses CSV bytes in the default format; `file` is used in messages only.
 pub fn parse_csv(bytes: &[u8], file: &str, target: &str, positive: Option<&str>) -> Result<Table> {
-    let sha = crate::manifest::hex_sha256(bytes);
+    let sha = hex_sha256(bytes);
     parse_stream(
         &mut || Ok(Box::new(bytes) as Box<dyn Read>),
         file,
@@ -193,16 +193,9 @@ pub fn read_csv(
 ) -> Result<Table> {
     let file = path.display().to_string();
     let fail = |e: std::io::Error| Error::Io(format!("{file}: cannot read: {e}; check the path"));
-    let sha = {
-        let mut hasher = Sha256::new();
-        let mut f = std::fs::File::open(path).map_err(fail)?;
-        std::io::copy(&mut f, &mut hasher).map_err(fail)?;
-        hasher
-            .finalize()
-            .iter()
-            .map(|b| format!("{b:02x}"))
-            .collect()
-    };
+    let sha = std::fs::File::open(path)
+        .and_then(hex_sha256_of)
+        .map_err(fail)?;
     let mut open = || -> Result<Box<dyn Read>> {
         let mut f =
             std::io::BufReader::with_capacity(1 << 20, std::fs::File::open(path).map_err(fail)?);

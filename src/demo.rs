@@ -12,8 +12,8 @@
 //! extra delay: it predicts sigmoid(1.5 (L - north effect) + 0.1). So the
 //! demo can put the true calibration error beside candor's estimate.
 
-use crate::math::sigmoid;
-use crate::rng::SplitMix64;
+use crate::common::math::sigmoid;
+use crate::common::rng::SplitMix64;
 
 /// One parcel.
 #[derive(Debug, Clone, Copy, PartialEq)]

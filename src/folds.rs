@@ -5,7 +5,7 @@
 //! fold gets within one row of its share of each class and fold sizes differ
 //! by at most one.
 
-use crate::rng::SplitMix64;
+use crate::common::rng::SplitMix64;
 
 /// The fold (in `0..k`) of every row, stratified by `labels`.
 pub fn stratified(labels: &[usize], n_classes: usize, k: usize, seed: u64) -> Vec<usize> {

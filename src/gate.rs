@@ -15,11 +15,11 @@
 //! `--update` rewrites the values below the rules, keeping the rules'
 //! text and comments, so accepting a change is one command and a diff.
 
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
+use crate::common::files::write_atomic;
 use crate::export::escape_xml as xml;
 use crate::metrics;
 use crate::report::{intervals, Interval, Results};
-use crate::store::write_atomic;
 use serde::Deserialize;
 use std::fmt::Write as _;
 use std::path::Path;

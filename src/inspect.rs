@@ -3,9 +3,9 @@
 //! class balance against the fold counts, and columns that look like
 //! identifiers or that leak the target.
 
+use crate::common::table::{Table as Out, Value};
 use crate::data::{ColumnData, Table, MISSING_CODE};
 use crate::manifest::Evaluation;
-use crate::table::{Table as Out, Value};
 
 /// The findings.
 pub struct Inspection {

@@ -9,32 +9,26 @@
 
 pub mod calibrate;
 pub mod catalog;
+pub mod common;
 pub mod data;
 pub mod demo;
-pub mod error;
 pub mod export;
 pub mod folds;
 pub mod gate;
-pub mod glm;
 pub mod inspect;
 pub mod learner;
 pub mod manifest;
-pub mod math;
 pub mod metrics;
-pub mod params;
 pub mod predictions;
 pub mod preprocess;
 pub mod protocol;
 pub mod report;
-pub mod rng;
 pub mod runner;
 pub mod score;
-pub mod stats;
 pub mod store;
 pub mod summary;
-pub mod table;
 
-pub use error::{Error, Result};
+pub use common::error::{Error, Result};
 
 /// The version recorded in every output, so results can be traced to code.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");

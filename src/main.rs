@@ -340,10 +340,10 @@ fn emit(text: &str) {
     }
 }
 
-fn param_value(v: &candor::params::ParamValue) -> String {
+fn param_value(v: &candor::common::params::ParamValue) -> String {
     match v {
-        candor::params::ParamValue::Float(x) => format!("{x:?}"),
-        candor::params::ParamValue::Int(i) => format!("{i}"),
+        candor::common::params::ParamValue::Float(x) => format!("{x:?}"),
+        candor::common::params::ParamValue::Int(i) => format!("{i}"),
     }
 }
 
@@ -355,7 +355,7 @@ fn execute(command: Command) -> candor::Result<ExitCode> {
 }
 
 fn data_command(command: DataCommand, text: &mut String) -> candor::Result<ExitCode> {
-    use candor::table::Table;
+    use candor::common::table::Table;
     match command {
         DataCommand::List { datasets } => {
             let cat = catalog::Catalog::locate(datasets.as_deref(), std::path::Path::new("."))?;
@@ -559,10 +559,16 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             }
             let outcome = candor::gate::check(&loaded, &baseline)?;
             if let Some(path) = junit {
-                candor::store::write_atomic(&path, candor::gate::junit(&outcome).as_bytes())?;
+                candor::common::files::write_atomic(
+                    &path,
+                    candor::gate::junit(&outcome).as_bytes(),
+                )?;
             }
             if let Some(path) = markdown {
-                candor::store::write_atomic(&path, candor::gate::markdown(&outcome).as_bytes())?;
+                candor::common::files::write_atomic(
+                    &path,
+                    candor::gate::markdown(&outcome).as_bytes(),
+                )?;
             }
             text.push_str(&candor::gate::human(&outcome));
             Ok(if outcome.passed() {
@@ -649,7 +655,7 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             let csv =
                 candor::score::apply(&map, &predictions, &layout.layout(false, &predictions))?;
             match out {
-                Some(path) => candor::store::write_atomic(&path, csv.as_bytes())?,
+                Some(path) => candor::common::files::write_atomic(&path, csv.as_bytes())?,
                 None => text.push_str(&csv),
             }
             Ok(ExitCode::SUCCESS)
@@ -661,8 +667,8 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             features,
         } => {
             let demo = candor::demo::generate(rows, seed);
-            candor::store::write_atomic(&out, demo.csv().as_bytes())?;
-            candor::store::write_atomic(&features, demo.features_csv().as_bytes())?;
+            candor::common::files::write_atomic(&out, demo.csv().as_bytes())?;
+            candor::common::files::write_atomic(&features, demo.features_csv().as_bytes())?;
             let _ = writeln!(
                 text,
                 "{rows} parcels: the co-op model's predictions in {}, the parcels' records in {}; the model's true ECE (15 bins) is {:.4}",

@@ -6,12 +6,12 @@
 //! `file:line:column: message`, where the message says what is allowed.
 //! See the README's manifest reference for every key.
 
+use crate::common::checksum::hex_sha256;
+use crate::common::error::{Error, Result};
+use crate::common::params::{self, Params};
 use crate::data::CsvFormat;
-use crate::error::{Error, Result};
-use crate::params::{self, Params};
 use crate::{calibrate, learner, metrics};
 use serde::{Deserialize, Serialize};
-use sha2::{Digest, Sha256};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use toml::Spanned;
@@ -204,14 +204,6 @@ pub fn load(path: &Path) -> Result<Experiment> {
         text,
     };
     parse(source)
-}
-
-/// Hex SHA-256 of some bytes.
-pub fn hex_sha256(bytes: &[u8]) -> String {
-    Sha256::digest(bytes)
-        .iter()
-        .map(|b| format!("{b:02x}"))
-        .collect()
 }
 
 /// Checks a manifest's text; `source.path` is used in messages and to
@@ -699,6 +691,6 @@ pub fn append_dataset(
     let mut checked = table.clone();
     checked.name = name.clone();
     crate::data::check_class_counts(&checked, &exp.evaluation)?;
-    crate::store::write_atomic(manifest, text.as_bytes())?;
+    crate::common::files::write_atomic(manifest, text.as_bytes())?;
     Ok(name)
 }

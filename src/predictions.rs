@@ -10,8 +10,8 @@
 //! outside [0, 1], or whose columns do not sum to 1 within the tolerance,
 //! are errors listed by line.
 
-use crate::error::{Error, Result};
-use crate::learner::Scores;
+use crate::common::error::{Error, Result};
+use crate::common::scores::Scores;
 use ndarray::Array2;
 use std::path::Path;
 

@@ -7,8 +7,8 @@
 //! that are constant on the training rows are left out, since they carry no
 //! information there and would divide by zero when scaled.
 
+use crate::common::math::median;
 use crate::data::{ColumnData, Table, MISSING_CODE};
-use crate::math::median;
 use ndarray::Array2;
 
 /// One output column: where it comes from and how it is shifted and scaled.

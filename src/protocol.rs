@@ -8,15 +8,16 @@
 //! family and the calibrators only ever see training rows.
 
 use crate::calibrate::{Calibration, Calibrator};
+use crate::common::error::{Error, Result};
+use crate::common::rng::derive_seed;
+use crate::common::scores::Scores;
 use crate::data::Table;
-use crate::error::{Error, Result};
 use crate::folds;
-use crate::learner::{Learner, Scores};
+use crate::learner::Learner;
 use crate::metrics::bootstrap::intervals;
 use crate::metrics::reliability::{reliability, ReliabilityBin};
 use crate::metrics::{Forecasts, Metric, MetricFn, MetricOptions};
 use crate::preprocess::Preprocessor;
-use crate::rng::derive_seed;
 use ndarray::{Array2, Axis};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};

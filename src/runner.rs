@@ -4,16 +4,17 @@
 
 use crate::calibrate::{self, Calibrator};
 use crate::catalog::Catalog;
+use crate::common::error::{Error, Result};
+use crate::common::files::write_atomic;
+use crate::common::rng::derive_seed;
 use crate::data::{self, Table};
-use crate::error::{Error, Result};
 use crate::export::{Csv, Exporter};
 use crate::folds;
 use crate::learner::{self, Learner};
 use crate::manifest::{DataSource, Experiment};
 use crate::metrics::{self, Metric, MetricOptions};
 use crate::protocol::{run_cell, CellPlan};
-use crate::rng::derive_seed;
-use crate::store::{write_atomic, CellRecord, Store};
+use crate::store::{CellRecord, Store};
 use crate::summary::{summarise, Summary};
 use indicatif::{ProgressBar, ProgressStyle};
 use rayon::prelude::*;
@@ -118,7 +119,7 @@ fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
         metrics: &exp.metrics,
     };
     let json = serde_json::to_vec(&input).unwrap_or_default();
-    crate::manifest::hex_sha256(&json)[..16].to_string()
+    crate::common::checksum::hex_sha256(&json)[..16].to_string()
 }
 
 struct Cell {

@@ -11,17 +11,18 @@
 //! same tables, figures and HTML report follow.
 
 use crate::calibrate::{self, CalibrationFile};
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
+use crate::common::files::write_atomic;
+use crate::common::params::Params;
 use crate::export::{Csv, Exporter};
 use crate::folds;
 use crate::manifest::{
     DataSource, DatasetSpec, Evaluation, Experiment, FamilySpec, ManifestSource,
 };
 use crate::metrics::{self, Forecasts, MetricOptions};
-use crate::params::Params;
 use crate::predictions::{self, Layout, Predictions};
 use crate::protocol::{fit_methods, measure_methods};
-use crate::store::{write_atomic, CellRecord, Store};
+use crate::store::{CellRecord, Store};
 use serde_json::json;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -124,7 +125,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 opts.layout.label.as_deref().unwrap_or(""),
                 opts.layout.group.as_deref().unwrap_or("")
             ),
-            sha256: crate::manifest::hex_sha256(&std::fs::read(path).map_err(|e| Error::io(path, "read", &e))?),
+            sha256: crate::common::checksum::hex_sha256(&std::fs::read(path).map_err(|e| Error::io(path, "read", &e))?),
         },
     };
     let methods: Vec<(String, Box<dyn calibrate::Calibrator>)> = calibrate::METHODS
@@ -161,7 +162,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                     &options,
                     (
                         opts.bootstrap,
-                        crate::rng::derive_seed(opts.seed, &[dataset, &f.to_string()]),
+                        crate::common::rng::derive_seed(opts.seed, &[dataset, &f.to_string()]),
                     ),
                 )
             };

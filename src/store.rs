@@ -7,10 +7,10 @@
 //! - `records.jsonl`, `summary.csv` and `run.json`: written (atomically)
 //!   once every cell is done.
 
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
+use crate::common::files::write_atomic;
 use crate::protocol::MethodResult;
 use serde::{Deserialize, Serialize};
-use std::io::Write;
 use std::path::{Path, PathBuf};
 
 /// Everything known about one finished cell.
@@ -32,28 +32,6 @@ pub struct CellRecord {
     /// Why the family could not be trained in this cell, if it could not.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub error: Option<String>,
-}
-
-/// Writes a file so that readers see either the old content or the new,
-/// never a partial one: write a temporary sibling, flush it to disk, rename.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
-    let dir = path.parent().unwrap_or(Path::new("."));
-    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, "create the folder", &e))?;
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let write = || -> std::io::Result<()> {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        std::fs::rename(&tmp, path)
-    };
-    write().map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        Error::io(path, "write", &e)
-    })
 }
 
 /// The results folder of one experiment.

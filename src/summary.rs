@@ -1,10 +1,10 @@
 //! Folding per-fold records into one row per (dataset, family, method).
 
+use crate::common::table::{Table, Value};
 use crate::manifest::Experiment;
 use crate::metrics;
 use crate::protocol::MethodResult;
 use crate::store::CellRecord;
-use crate::table::{Table, Value};
 
 /// Mean and spread of one metric over all folds; NaN when the family or
 /// method failed, or the metric was undefined, in any of them.

@@ -4,9 +4,9 @@
 //! Niculescu-Mizil & Caruana (2005).
 
 use candor::calibrate::{self, Calibration, Settings};
-use candor::learner::Scores;
+use candor::common::rng::SplitMix64;
+use candor::common::scores::Scores;
 use candor::metrics::{auc, brier, Forecasts};
-use candor::rng::SplitMix64;
 use ndarray::Array2;
 
 fn binary_scores(z: &[f64]) -> Scores {

@@ -5,9 +5,9 @@
 //! of shared/reference/METHODS.md), c < 1 too moderate, and a shift s moves
 //! them up or down.
 
+use candor::common::rng::SplitMix64;
 use candor::metrics::{calibration_gap, calibration_intercept, calibration_slope, Forecasts};
 use candor::report::{diagnose, Shape};
-use candor::rng::SplitMix64;
 use ndarray::Array2;
 
 fn sigmoid(z: f64) -> f64 {

@@ -1,7 +1,7 @@
 //! Model families against reference implementations.
 
+use candor::common::params::{ParamValue, Params};
 use candor::learner;
-use candor::params::{ParamValue, Params};
 use ndarray::Array2;
 use serde_json::Value;
 
@@ -46,12 +46,12 @@ fn binary_logistic_matches_scikit_learn() {
 
 mod every_family {
     use candor::calibrate::{self, Calibrator, Settings};
+    use candor::common::params::Params;
+    use candor::common::rng::SplitMix64;
     use candor::data::parse_csv;
     use candor::learner::{self, FAMILIES};
     use candor::metrics::{MetricOptions, METRICS};
-    use candor::params::Params;
     use candor::protocol::{run_cell, CellPlan};
-    use candor::rng::SplitMix64;
     use ndarray::Array2;
 
     /// Noisy data with a signal in the first two columns and K classes.

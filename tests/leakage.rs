@@ -4,10 +4,11 @@
 //! preprocessing unchanged.
 
 use candor::calibrate::{BinaryCalibrator, BinaryMap, Calibrator, Input, OneVsRest};
+use candor::common::error::Result;
+use candor::common::scores::Scores;
 use candor::data::{parse_csv, Table};
-use candor::error::Result;
 use candor::folds;
-use candor::learner::{Learner, Model, Scores};
+use candor::learner::{Learner, Model};
 use candor::metrics::{MetricOptions, METRICS};
 use candor::protocol::{run_cell, CellPlan};
 use ndarray::{Array2, ArrayView2};

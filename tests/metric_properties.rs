@@ -2,8 +2,8 @@
 //! shared/reference/METHODS.md lists them), checked on many random
 //! forecasters.
 
+use candor::common::rng::SplitMix64;
 use candor::metrics::{auc, brier, ce2_debiased, ece, ece_mass, mce, Forecasts, MetricOptions};
-use candor::rng::SplitMix64;
 use ndarray::Array2;
 
 fn binary(p: &[f64]) -> Array2<f64> {

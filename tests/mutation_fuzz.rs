@@ -6,9 +6,9 @@
 //! mutation_fuzz -- --ignored` runs 200,000 inputs (a few minutes), and
 //! CANDOR_FUZZ_ITERS sets another count.
 
+use candor::common::rng::SplitMix64;
 use candor::data::parse_csv;
 use candor::manifest::{parse, ManifestSource};
-use candor::rng::SplitMix64;
 use std::path::{Path, PathBuf};
 
 const SPLICES: &[&[u8]] = &[

@@ -3,7 +3,7 @@
 //! values in shared/reference/METHODS.md (CV-14 to CV-18), which were
 //! recomputed there with scipy.stats.
 
-use candor::stats::{bonferroni_dunn_q, critical_difference, friedman, nemenyi_q, ranks};
+use candor::common::stats::{bonferroni_dunn_q, critical_difference, friedman, nemenyi_q, ranks};
 
 #[test]
 fn nemenyi_and_bonferroni_dunn_critical_values() {

@@ -16,8 +16,8 @@
 //! recorded.
 
 use super::{BinaryCalibrator, BinaryMap, Input};
-use crate::error::{Error, Result};
-use crate::glm::logistic;
+use crate::common::error::{Error, Result};
+use crate::common::glm::logistic;
 
 const CLIP: f64 = 1e-12;
 
@@ -107,7 +107,7 @@ impl BinaryMap for BetaMap {
 
     fn apply(&self, s: f64) -> f64 {
         let s = s.clamp(CLIP, 1.0 - CLIP);
-        crate::math::sigmoid(self.c + self.a * s.ln() - self.b * (1.0 - s).ln())
+        crate::common::math::sigmoid(self.c + self.a * s.ln() - self.b * (1.0 - s).ln())
     }
 
     fn warning(&self) -> Option<String> {
@@ -156,7 +156,7 @@ mod tests {
     fn calibrated_scores_fit_close_to_the_identity() {
         // Outcomes drawn from the scores themselves: the fitted map should
         // be near q = s on a large sample.
-        let mut rng = crate::rng::SplitMix64::new(8);
+        let mut rng = crate::common::rng::SplitMix64::new(8);
         let s: Vec<f64> = (0..20_000).map(|_| 0.02 + 0.96 * rng.unit()).collect();
         let y: Vec<bool> = s.iter().map(|&p| rng.unit() < p).collect();
         let m = BetaMap::fit(&s, &y).unwrap();

@@ -32,7 +32,7 @@ use super::{
     BetaMap, BinaryMap, Calibration, Constant, FittedOvr, HistogramMap, Input, IsotonicMap,
     PlattMap,
 };
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 
 /// One class's map.

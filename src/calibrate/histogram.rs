@@ -13,7 +13,7 @@
 //! bin count is `histogram_bins` in the manifest's `[calibration]` table.
 
 use super::{BinaryCalibrator, BinaryMap, Input};
-use crate::error::Result;
+use crate::common::error::Result;
 
 /// Histogram binning with a fixed number of bins.
 pub struct Histogram {

@@ -9,7 +9,7 @@
 //! the same as scikit-learn's calibrator, so results are comparable with it.
 
 use super::{BinaryCalibrator, BinaryMap, Input};
-use crate::error::Result;
+use crate::common::error::Result;
 
 /// Isotonic regression on the raw probability.
 pub struct Isotonic;

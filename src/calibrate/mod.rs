@@ -15,8 +15,8 @@ mod platt;
 mod temperature;
 mod venn_abers;
 
-use crate::error::Result;
-use crate::learner::Scores;
+use crate::common::error::Result;
+use crate::common::scores::{renormalise, Scores};
 use ndarray::Array2;
 use std::collections::BTreeMap;
 
@@ -401,36 +401,5 @@ impl Calibration for FittedOvr {
             ("interval_width_mean".to_string(), (high - low) / n),
             ("interval_width_max".to_string(), widest),
         ])
-    }
-}
-
-/// Divides each row by its sum; an all-zero row becomes uniform.
-pub fn renormalise(p: &mut Array2<f64>) {
-    let k = p.ncols() as f64;
-    for mut row in p.rows_mut() {
-        let sum: f64 = row.sum();
-        if sum > 0.0 {
-            row.mapv_inplace(|v| v / sum);
-        } else {
-            row.fill(1.0 / k);
-        }
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use ndarray::array;
-
-    #[test]
-    fn renormalisation_matches_the_reference_sheet() {
-        // CV-13 in shared/reference/METHODS.md (scikit-learn's one-vs-rest
-        // normalisation logic): (0.5, 0.3, 0.4) -> (0.41667, 0.25, 0.33333).
-        let mut p = array![[0.5, 0.3, 0.4], [0.0, 0.0, 0.0]];
-        renormalise(&mut p);
-        assert!((p[[0, 0]] - 0.5 / 1.2).abs() < 1e-12);
-        assert!((p[[0, 1]] - 0.25).abs() < 1e-12);
-        assert!((p[[0, 2]] - 0.4 / 1.2).abs() < 1e-12);
-        assert_eq!(p.row(1).to_vec(), vec![1.0 / 3.0; 3]);
     }
 }

@@ -3,7 +3,7 @@
 //! Platt's smoothed targets t+ = (N+ + 1)/(N+ + 2), t- = 1/(N- + 2).
 
 use super::{BinaryCalibrator, BinaryMap, Input};
-use crate::error::Result;
+use crate::common::error::Result;
 
 /// Platt scaling on the family's native score.
 pub struct Platt;
@@ -123,7 +123,7 @@ impl BinaryMap for PlattMap {
     }
 
     fn apply(&self, score: f64) -> f64 {
-        crate::math::sigmoid(-(self.a * score + self.b))
+        crate::common::math::sigmoid(-(self.a * score + self.b))
     }
 }
 

@@ -11,8 +11,8 @@
 //! warning is recorded.
 
 use super::{Calibration, Calibrator};
-use crate::error::Result;
-use crate::learner::Scores;
+use crate::common::error::Result;
+use crate::common::scores::Scores;
 use ndarray::Array2;
 
 /// Temperature scaling.
@@ -146,7 +146,7 @@ pub(crate) fn from_beta(beta: f64, n_classes: usize) -> Box<dyn Calibration> {
 impl Calibration for Fitted {
     fn apply(&self, scores: &Scores) -> Array2<f64> {
         let z = logits(scores, self.n_classes) * self.beta;
-        crate::learner::softmax_rows(&z)
+        crate::common::scores::softmax_rows(&z)
     }
 
     fn export(&self) -> Option<super::Exported> {
@@ -177,7 +177,7 @@ mod tests {
         ];
         let labels = [0, 1, 2, 1];
         let scores = Scores {
-            proba: crate::learner::softmax_rows(&native),
+            proba: crate::common::scores::softmax_rows(&native),
             native: Some(native),
         };
         assert!((scores.proba[[0, 0]] - 0.78699).abs() < 1e-5);

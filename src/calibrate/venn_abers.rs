@@ -16,7 +16,7 @@
 
 use super::isotonic::pool_adjacent_violators;
 use super::{BinaryCalibrator, BinaryMap, Input};
-use crate::error::Result;
+use crate::common::error::Result;
 use std::cell::RefCell;
 use std::collections::HashMap;
 

@@ -3,7 +3,7 @@
 //! so the file loads straight into a data frame.
 
 use super::Exporter;
-use crate::table::{exact, Table};
+use crate::common::table::{exact, Table};
 
 /// The CSV exporter.
 pub struct Csv;

@@ -2,7 +2,7 @@
 //! undefined numbers as null.
 
 use super::Exporter;
-use crate::table::Table;
+use crate::common::table::Table;
 
 /// The JSON exporter.
 pub struct Json;

@@ -2,7 +2,7 @@
 //! to four decimals.
 
 use super::Exporter;
-use crate::table::{short, Table};
+use crate::common::table::{short, Table};
 
 /// The Markdown exporter.
 pub struct Markdown;

@@ -10,7 +10,7 @@ pub use self::json::Json;
 pub use self::markdown::Markdown;
 pub use self::text::Text;
 
-use crate::table::Table;
+use crate::common::table::Table;
 
 /// Renders a table in one format.
 pub trait Exporter {

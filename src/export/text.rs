@@ -2,7 +2,7 @@
 //! numbers right) and the notes underneath.
 
 use super::Exporter;
-use crate::table::{short, Table, Value};
+use crate::common::table::{short, Table, Value};
 
 /// The terminal exporter.
 pub struct Text;

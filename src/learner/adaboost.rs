@@ -11,10 +11,11 @@
 //! Boosting stops early when a stump is no better than chance or perfect.
 
 use super::tree::{grow, Binned, Growth, Rows, Tree};
-use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
-use crate::error::{Error, Result};
-use crate::params::{ParamKind, ParamSpec, ParamValue};
-use crate::rng::SplitMix64;
+use super::{Family, Learner, Model};
+use crate::common::error::{Error, Result};
+use crate::common::params::{ParamKind, ParamSpec, ParamValue};
+use crate::common::rng::SplitMix64;
+use crate::common::scores::{binary_from_log_odds, softmax_rows, Scores};
 use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {

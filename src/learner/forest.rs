@@ -8,10 +8,11 @@
 //! and averaged in index order, so results do not depend on thread count.
 
 use super::tree::{grow, Binned, Growth, Rows, Tree};
-use super::{Family, Learner, Model, Scores};
-use crate::error::Result;
-use crate::params::{ParamKind, ParamSpec, ParamValue, Params};
-use crate::rng::{derive_seed, SplitMix64};
+use super::{Family, Learner, Model};
+use crate::common::error::Result;
+use crate::common::params::{ParamKind, ParamSpec, ParamValue, Params};
+use crate::common::rng::{derive_seed, SplitMix64};
+use crate::common::scores::Scores;
 use ndarray::{Array2, ArrayView2};
 use rayon::prelude::*;
 

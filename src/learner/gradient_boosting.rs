@@ -12,9 +12,10 @@
 //! the per-class scores (multiclass) are the native score.
 
 use super::tree::{descend, partition, Binned, Node, Rows};
-use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
-use crate::error::Result;
-use crate::params::{ParamKind, ParamSpec, ParamValue};
+use super::{Family, Learner, Model};
+use crate::common::error::Result;
+use crate::common::params::{ParamKind, ParamSpec, ParamValue};
+use crate::common::scores::{binary_from_log_odds, softmax_rows, Scores};
 use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {
@@ -275,7 +276,7 @@ impl Learner for Boosting {
         let (mut g, mut h) = (vec![0.0; n], vec![0.0; n]);
         for _ in 0..self.rounds {
             let p = if n_classes == 2 {
-                f.mapv(crate::math::sigmoid)
+                f.mapv(crate::common::math::sigmoid)
             } else {
                 softmax_rows(&f)
             };

@@ -8,9 +8,10 @@
 //! the neighbours, and the probabilities, are deterministic. No native score:
 //! calibrators read the fractions.
 
-use super::{Family, Learner, Model, Scores};
-use crate::error::{Error, Result};
-use crate::params::{ParamKind, ParamSpec, ParamValue};
+use super::{Family, Learner, Model};
+use crate::common::error::{Error, Result};
+use crate::common::params::{ParamKind, ParamSpec, ParamValue};
+use crate::common::scores::Scores;
 use ndarray::linalg::general_mat_mul;
 use ndarray::{s, Array1, Array2, ArrayView2, Axis};
 

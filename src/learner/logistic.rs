@@ -12,9 +12,10 @@
 //! sorted class values; we place them by class explicitly rather than
 //! assume.
 
-use super::{binary_from_log_odds, softmax_rows, Family, Learner, Model, Scores};
-use crate::error::{Error, Result};
-use crate::params::{ParamKind, ParamSpec, ParamValue};
+use super::{Family, Learner, Model};
+use crate::common::error::{Error, Result};
+use crate::common::params::{ParamKind, ParamSpec, ParamValue};
+use crate::common::scores::{binary_from_log_odds, softmax_rows, Scores};
 use linfa::prelude::*;
 use linfa_logistic::MultiLogisticRegression;
 use ndarray::{Array1, Array2, ArrayView2};
@@ -130,7 +131,7 @@ fn newton_binary(
     let mut f = objective(x, &t, l2, &w, b);
     for _ in 0..max_iter {
         let z = x.dot(&w) + b;
-        let p = z.mapv(crate::math::sigmoid);
+        let p = z.mapv(crate::common::math::sigmoid);
         let r = Array1::from_iter(p.iter().zip(&t).map(|(pi, ti)| pi - ti));
         // Gradient over (w, b), then the Hessian [X 1]' D [X 1] + l2 I_w.
         let mut grad = Array1::zeros(d + 1);

@@ -8,11 +8,12 @@
 //! output layer's logits are the native score (for binary tasks the
 //! difference of the two logits, the log-odds).
 
-use super::{binary_from_log_odds, log_softmax_rows, Family, Learner, Model, Scores};
-use crate::error::{Error, Result};
+use super::{Family, Learner, Model};
+use crate::common::error::{Error, Result};
+use crate::common::params::{ParamKind, ParamSpec, ParamValue};
+use crate::common::rng::SplitMix64;
+use crate::common::scores::{binary_from_log_odds, log_softmax_rows, Scores};
 use crate::folds;
-use crate::params::{ParamKind, ParamSpec, ParamValue};
-use crate::rng::SplitMix64;
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 
 pub const FAMILY: Family = Family {
@@ -475,7 +476,12 @@ impl Learner for Mlp {
     ) -> Result<Box<dyn Model>> {
         let mut rng = SplitMix64::new(seed);
         // A stratified tenth of the rows decides when to stop.
-        let split = folds::stratified(y, n_classes, 10, crate::rng::derive_seed(seed, &["valid"]));
+        let split = folds::stratified(
+            y,
+            n_classes,
+            10,
+            crate::common::rng::derive_seed(seed, &["valid"]),
+        );
         let (train, valid) = folds::split(&split, 0);
         if valid.is_empty() || train.is_empty() {
             return Err(Error::Fit(

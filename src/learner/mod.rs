@@ -15,24 +15,10 @@ mod naive_bayes;
 mod svm;
 mod tree;
 
-use crate::error::Result;
-use crate::params::{ParamSpec, Params};
-use ndarray::{Array2, ArrayView2};
-
-/// What a fitted model says about a set of rows.
-#[derive(Debug, Clone)]
-pub struct Scores {
-    /// Class probabilities, one row per input row and one column per class;
-    /// each row sums to 1. This is the "raw" (uncalibrated) forecast.
-    pub proba: Array2<f64>,
-    /// The family's native score, which calibrators such as Platt scaling
-    /// work on: for a binary task one column holding the positive class's
-    /// log-odds (or margin); for a multiclass task one column per class
-    /// (logits or log-probabilities). `None` for families without one
-    /// (trees, forests, nearest neighbours), whose calibrators then read the
-    /// probabilities.
-    pub native: Option<Array2<f64>>,
-}
+use crate::common::error::Result;
+use crate::common::params::{ParamSpec, Params};
+use crate::common::scores::Scores;
+use ndarray::ArrayView2;
 
 /// A family with its parameters set, ready to be trained on any split.
 pub trait Learner: Send + Sync {
@@ -101,35 +87,4 @@ pub fn known_kinds() -> String {
         .map(|f| f.kind)
         .collect::<Vec<_>>()
         .join(", ")
-}
-
-/// Turns per-class log-scores (log-likelihoods or logits) into normalised
-/// log-probabilities with the max-shift, so that very negative scores do not
-/// underflow to `ln(0/0)`.
-pub(crate) fn log_softmax_rows(scores: &Array2<f64>) -> Array2<f64> {
-    let mut out = scores.clone();
-    for mut row in out.rows_mut() {
-        let max = row.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        let sum: f64 = row.iter().map(|v| (v - max).exp()).sum();
-        let log_norm = max + sum.ln();
-        row.mapv_inplace(|v| v - log_norm);
-    }
-    out
-}
-
-/// Probabilities from per-class log-scores; see [`log_softmax_rows`].
-pub(crate) fn softmax_rows(scores: &Array2<f64>) -> Array2<f64> {
-    log_softmax_rows(scores).mapv(f64::exp)
-}
-
-/// Probabilities `[1 - p, p]` from the positive class's log-odds, computed
-/// without cancellation at either extreme.
-pub(crate) fn binary_from_log_odds(z: &[f64]) -> Array2<f64> {
-    let mut out = Array2::zeros((z.len(), 2));
-    for (i, &zi) in z.iter().enumerate() {
-        let p = crate::math::sigmoid(zi);
-        out[[i, 1]] = p;
-        out[[i, 0]] = crate::math::sigmoid(-zi);
-    }
-    out
 }

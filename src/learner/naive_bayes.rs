@@ -5,9 +5,10 @@
 //! normalising and returns NaN when every likelihood underflows, which happens
 //! on wide datasets.
 
-use super::{binary_from_log_odds, log_softmax_rows, Family, Learner, Model, Scores};
-use crate::error::{Error, Result};
-use crate::params::{ParamKind, ParamSpec, ParamValue, Params};
+use super::{Family, Learner, Model};
+use crate::common::error::{Error, Result};
+use crate::common::params::{ParamKind, ParamSpec, ParamValue, Params};
+use crate::common::scores::{binary_from_log_odds, log_softmax_rows, Scores};
 use linfa::prelude::*;
 use linfa_bayes::{GaussianNb, NaiveBayes};
 use ndarray::{Array1, Array2, ArrayView2};

@@ -21,9 +21,10 @@
 //! calibrators; multiclass tasks give none (one-vs-rest margins are not
 //! logits), so calibrators read the rescaled margins.
 
-use super::{Family, Learner, Model, Scores};
-use crate::error::Result;
-use crate::params::{ParamKind, ParamSpec, ParamValue};
+use super::{Family, Learner, Model};
+use crate::common::error::Result;
+use crate::common::params::{ParamKind, ParamSpec, ParamValue};
+use crate::common::scores::Scores;
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 
 pub const FAMILY: Family = Family {
@@ -282,7 +283,7 @@ impl Model for Fitted {
                 proba[[i, k]] = machine.rescale(*m);
             }
         }
-        crate::calibrate::renormalise(&mut proba);
+        crate::common::scores::renormalise(&mut proba);
         Scores {
             proba,
             native: None,

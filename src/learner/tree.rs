@@ -14,7 +14,7 @@
 //! criterion over the features sampled for that split; leaves hold weighted
 //! class frequencies.
 
-use crate::rng::SplitMix64;
+use crate::common::rng::SplitMix64;
 use ndarray::{ArrayView2, CowArray, Ix2};
 
 /// A matrix in row-major order, so that its rows are plain slices for the

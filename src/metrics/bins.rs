@@ -171,7 +171,7 @@ mod tests {
     fn selection_agrees_with_ranking_every_row() {
         // The definition, by brute force: bin = floor(L B / n) with L the
         // number of forecasts strictly below.
-        let mut rng = crate::rng::SplitMix64::new(5);
+        let mut rng = crate::common::rng::SplitMix64::new(5);
         for _ in 0..200 {
             let n = 1 + rng.below(60);
             let bins = 1 + rng.below(20);

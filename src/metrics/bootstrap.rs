@@ -8,7 +8,7 @@
 //! perfectly calibrated model.
 
 use super::{Forecasts, MetricFn, MetricOptions};
-use crate::rng::SplitMix64;
+use crate::common::rng::SplitMix64;
 use ndarray::Array2;
 
 /// The q-quantile of sorted values by linear interpolation.

@@ -9,13 +9,13 @@
 //! of the slope model is a different number and is not reported.)
 //!
 //! Forecasts are clipped to [1e-15, 1 - 1e-15] before the logit. Both fits
-//! are maximum likelihood ([`crate::glm::logistic`]); when the outcomes are
+//! are maximum likelihood ([`crate::common::glm::logistic`]); when the outcomes are
 //! separated by the forecasts the likelihood has no maximum and the value is
 //! NaN (undefined). Multiclass tasks use the top-label
 //! confidence and whether the top label was right.
 
 use super::Forecasts;
-use crate::glm::logistic;
+use crate::common::glm::logistic;
 
 const CLIP: f64 = 1e-15;
 
@@ -44,9 +44,9 @@ pub fn calibration_intercept(fc: &Forecasts<'_>) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::common::rng::SplitMix64;
     use crate::metrics::testing::{binary, cv01};
     use crate::metrics::Forecasts;
-    use crate::rng::SplitMix64;
 
     #[test]
     fn toy_forecaster_matches_statsmodels() {
@@ -78,8 +78,8 @@ mod tests {
             let (u1, u2) = (rng.unit().max(1e-300), rng.unit());
             let z = (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos();
             let lp = 1.5 * z;
-            labels.push(usize::from(rng.unit() < crate::math::sigmoid(lp)));
-            probs.push(crate::math::sigmoid(1.3 * lp));
+            labels.push(usize::from(rng.unit() < crate::common::math::sigmoid(lp)));
+            probs.push(crate::common::math::sigmoid(1.3 * lp));
         }
         let b = calibration_slope(&Forecasts::new(binary(&probs).view(), &labels));
         assert!((b - 1.0 / 1.3).abs() < 0.006, "{b}");

@@ -21,9 +21,9 @@
 //! top-label confidence.
 
 use super::{test_over_train, Results};
-use crate::stats::fold_interval;
+use crate::common::stats::fold_interval;
+use crate::common::table::{Table, Value};
 use crate::summary::fold_values;
-use crate::table::{Table, Value};
 
 /// How far the slope must be from 1 to count.
 pub const SLOPE_MARGIN: f64 = 0.15;

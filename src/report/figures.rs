@@ -7,7 +7,7 @@
 //! JSON, so a reader (or a test) can check the picture against the tables.
 
 use super::{Figure, Ranking, Results};
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
 use crate::metrics::reliability::{wilson, Z95};
 use crate::summary::{fold_values, method_result};
 use plotters::coord::Shift;

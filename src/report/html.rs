@@ -3,8 +3,8 @@
 //! resources, so it opens offline and can be attached to a CI job.
 
 use super::{Figure, Results};
+use crate::common::table::{short, Table, Value};
 use crate::export::escape_xml as esc;
-use crate::table::{short, Table, Value};
 
 /// The caution every report carries.
 pub const CAUTION: &str = "Benchmark calibration is not validation of a model deployed for decisions about people (for example in credit or medicine). Results on benchmark folds do not carry over to a population, a time period or a use the data did not cover; local regulation and licensed professional judgement apply.";

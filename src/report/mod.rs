@@ -14,11 +14,12 @@ pub use diagnosis::{diagnose, Diagnosis, Shape};
 pub use ranking::Ranking;
 pub use tables::{intervals, Interval};
 
-use crate::error::{Error, Result};
+use crate::common::error::{Error, Result};
+use crate::common::files::write_atomic;
+use crate::common::table::Table;
 use crate::export::TABLE_FORMATS;
 use crate::manifest::{Experiment, ManifestSource};
-use crate::store::{write_atomic, CellRecord};
-use crate::table::Table;
+use crate::store::CellRecord;
 use std::path::{Path, PathBuf};
 
 /// Choices a reader can make about the report.

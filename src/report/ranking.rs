@@ -4,10 +4,10 @@
 
 use super::tables::{badness, direction};
 use super::Results;
+use crate::common::stats::{critical_difference, friedman, nemenyi_q, ranks, Friedman};
+use crate::common::table::{Table, Value};
 use crate::metrics::Metric;
-use crate::stats::{critical_difference, friedman, nemenyi_q, ranks, Friedman};
 use crate::summary::fold_values;
-use crate::table::{Table, Value};
 
 /// The ranking of every (family, method) pair on one metric.
 #[derive(Debug, Clone)]

@@ -3,10 +3,10 @@
 //! best family before and after calibration.
 
 use super::{test_over_train, Results};
+use crate::common::stats::fold_interval;
+use crate::common::table::{Table, Value};
 use crate::metrics::Metric;
-use crate::stats::fold_interval;
 use crate::summary::fold_values;
-use crate::table::{Table, Value};
 use std::collections::BTreeMap;
 
 /// A mean over folds with its 95% interval, and the paired change from the
@@ -179,7 +179,7 @@ fn median(values: &[f64]) -> f64 {
     if finite.is_empty() {
         f64::NAN
     } else {
-        crate::math::median(&finite)
+        crate::common::math::median(&finite)
     }
 }
 

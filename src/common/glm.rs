@@ -144,7 +144,7 @@ mod tests {
         let y: Vec<f64> = x1
             .iter()
             .zip(&x2)
-            .map(|(a, b)| crate::math::sigmoid(0.3 + 1.2 * a - 0.7 * b))
+            .map(|(a, b)| crate::common::math::sigmoid(0.3 + 1.2 * a - 0.7 * b))
             .collect();
         let beta = logistic(&[&x1, &x2], None, &y).unwrap();
         for (got, want) in beta.iter().zip([0.3, 1.2, -0.7]) {
