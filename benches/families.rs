@@ -4,11 +4,11 @@
 //! `cargo bench --bench families [FAMILY...]`; the README quotes the figures, and
 //! scripts/bench-peer.sh compares whole grids with scikit-learn.
 
-use candor::catalog::Catalog;
 use candor::common::params::Params;
+use candor::data::catalog::Catalog;
+use candor::data::preprocess::Preprocessor;
+use candor::data::source::{DataSource, DatasetSpec};
 use candor::learner::FAMILIES;
-use candor::manifest::{DataSource, DatasetSpec};
-use candor::preprocess::Preprocessor;
 use std::path::Path;
 use std::time::Instant;
 
@@ -30,7 +30,7 @@ fn main() {
                 format: Default::default(),
                 origin: String::new(),
             };
-            candor::data::load(&spec, Some(&catalog), &dir).expect("bundled dataset")
+            candor::data::source::load(&spec, Some(&catalog), &dir).expect("bundled dataset")
         })
         .collect();
     // Cargo passes its own `--bench` flag; other words pick families.

@@ -1,12 +1,12 @@
 //! Loading a large in-house CSV: 1,000,000 rows x 50 columns (48 numeric,
 //! one 12-level categorical, a binary target), written to a temporary file,
-//! then read with `candor::data::read_csv`, plain and gzip-compressed.
+//! then read with `candor::data::csv::read_csv`, plain and gzip-compressed.
 //! Prints the wall time and the process's peak resident memory against the
 //! size of the numeric matrix (8 bytes per cell). Run with
 //! `cargo bench --bench load [ROWS]`; the README quotes the figures.
 
 use candor::common::rng::SplitMix64;
-use candor::data::{read_csv, CsvFormat};
+use candor::data::csv::{read_csv, CsvFormat};
 use std::io::{BufWriter, Write};
 use std::time::Instant;
 

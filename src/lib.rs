@@ -8,19 +8,13 @@
 //! [`metrics::METRICS`] and the [`export::Exporter`] implementations.
 
 pub mod calibrate;
-pub mod catalog;
 pub mod common;
 pub mod data;
-pub mod demo;
 pub mod export;
-pub mod folds;
 pub mod gate;
-pub mod inspect;
 pub mod learner;
 pub mod manifest;
 pub mod metrics;
-pub mod predictions;
-pub mod preprocess;
 pub mod protocol;
 pub mod report;
 pub mod runner;

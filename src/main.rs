@@ -1,9 +1,10 @@
 //! The `candor` command line: a thin layer over the library.
 
+use candor::data::catalog;
 use candor::export::{Exporter, Text};
 use candor::report::ReportOptions;
 use candor::runner::{self, RunOptions};
-use candor::{calibrate, catalog, learner, manifest, metrics};
+use candor::{calibrate, learner, manifest, metrics};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::fmt::Write as _;
 use std::io::{IsTerminal, Write as _};
@@ -220,7 +221,7 @@ struct CsvArgs {
 }
 
 impl CsvArgs {
-    fn format(&self) -> candor::Result<candor::data::CsvFormat> {
+    fn format(&self) -> candor::Result<candor::data::csv::CsvFormat> {
         let delimiter = match self.delimiter.as_str() {
             "tab" | "\\t" => b'\t',
             d if d.len() == 1 => d.as_bytes()[0],
@@ -239,7 +240,7 @@ impl CsvArgs {
                 )))
             }
         };
-        Ok(candor::data::CsvFormat {
+        Ok(candor::data::csv::CsvFormat {
             delimiter,
             decimal_comma,
         })
@@ -267,7 +268,11 @@ struct LayoutArgs {
 }
 
 impl LayoutArgs {
-    fn layout(self, label_required: bool, path: &std::path::Path) -> candor::predictions::Layout {
+    fn layout(
+        self,
+        label_required: bool,
+        path: &std::path::Path,
+    ) -> candor::data::predictions::Layout {
         // `apply` takes the label column only if the file has one.
         let has_label = label_required
             || std::fs::File::open(path)
@@ -280,7 +285,7 @@ impl LayoutArgs {
                     Some(header.split(',').any(|c| c.trim() == self.label))
                 })
                 .unwrap_or(false);
-        candor::predictions::Layout {
+        candor::data::predictions::Layout {
             label: has_label.then_some(self.label),
             group: self.group,
             positive: self.positive,
@@ -406,16 +411,13 @@ fn data_command(command: DataCommand, text: &mut String) -> candor::Result<ExitC
             folds,
             inner_folds,
         } => {
-            let table = candor::data::read_csv(
+            let table = candor::data::csv::read_csv(
                 &file,
                 &csv.target,
                 csv.positive.as_deref(),
                 &csv.format()?,
             )?;
-            let mut eval = manifest::default_evaluation(0);
-            eval.outer_folds = folds;
-            eval.inner_folds = inner_folds;
-            let found = candor::inspect::inspect(&table, &eval);
+            let found = candor::data::inspect::inspect(&table, folds, inner_folds);
             text.push_str(&Text.render(&found.schema));
             text.push('\n');
             text.push_str(&Text.render(&found.classes));
@@ -436,7 +438,7 @@ fn data_command(command: DataCommand, text: &mut String) -> candor::Result<ExitC
         } => {
             let format = csv.format()?;
             let table =
-                candor::data::read_csv(&file, &csv.target, csv.positive.as_deref(), &format)?;
+                candor::data::csv::read_csv(&file, &csv.target, csv.positive.as_deref(), &format)?;
             let entry = candor::manifest::append_dataset(
                 &to,
                 &file,
@@ -666,7 +668,7 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             out,
             features,
         } => {
-            let demo = candor::demo::generate(rows, seed);
+            let demo = candor::data::demo::generate(rows, seed);
             candor::common::files::write_atomic(&out, demo.csv().as_bytes())?;
             candor::common::files::write_atomic(&features, demo.features_csv().as_bytes())?;
             let _ = writeln!(
@@ -674,7 +676,7 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
                 "{rows} parcels: the co-op model's predictions in {}, the parcels' records in {}; the model's true ECE (15 bins) is {:.4}",
                 out.display(),
                 features.display(),
-                candor::demo::true_ece(15)
+                candor::data::demo::true_ece(15)
             );
             Ok(ExitCode::SUCCESS)
         }

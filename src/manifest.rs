@@ -9,7 +9,10 @@
 use crate::common::checksum::hex_sha256;
 use crate::common::error::{Error, Result};
 use crate::common::params::{self, Params};
-use crate::data::CsvFormat;
+use crate::data::csv::CsvFormat;
+use crate::data::folds::class_fits_folds;
+use crate::data::source::{DataSource, DatasetSpec};
+use crate::data::table::Table;
 use crate::{calibrate, learner, metrics};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -72,35 +75,6 @@ pub struct Evaluation {
     pub bootstrap: usize,
     /// Seeds the bootstrap resamples (with each cell's identity).
     pub bootstrap_seed: u64,
-}
-
-/// Where a dataset's CSV comes from.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum DataSource {
-    /// An entry of the bundled catalog, by id.
-    Bundled(String),
-    /// A CSV path, relative to the manifest's folder unless absolute.
-    Path(PathBuf),
-}
-
-/// One dataset entry.
-#[derive(Debug, Clone, Serialize, Deserialize)]
-pub struct DatasetSpec {
-    /// The label used in tables and result paths.
-    pub name: String,
-    pub source: DataSource,
-    /// The target column; bundled datasets default to the catalog's.
-    pub target: Option<String>,
-    /// The positive class of a binary target; bundled datasets default to the
-    /// catalog's, other files to `1` or `true` when those are the labels.
-    pub positive: Option<String>,
-    /// The file's delimiter and decimal mark (`delimiter`, `decimal`).
-    #[serde(default, skip_serializing_if = "CsvFormat::is_default")]
-    pub format: CsvFormat,
-    /// `file:line:column` of the entry, for later error messages.
-    #[serde(skip)]
-    pub origin: String,
 }
 
 /// One model family entry.
@@ -182,6 +156,24 @@ pub fn default_evaluation(seed: u64) -> Evaluation {
         bootstrap: 1000,
         bootstrap_seed: seed,
     }
+}
+
+/// Checks that every class has enough rows for the evaluation's fold
+/// counts, before any training, so the run stops with the class named.
+pub fn check_class_counts(table: &Table, eval: &Evaluation) -> Result<()> {
+    let k = eval.outer_folds;
+    let m = eval.inner_folds;
+    let enough = |c: usize| class_fits_folds(c, k, m);
+    for (class, &count) in table.classes.iter().zip(&table.class_counts()) {
+        if !enough(count) {
+            let needed = (1..).find(|&c| enough(c)).unwrap_or(k.max(m));
+            return Err(Error::Data(format!(
+                "{}: class `{class}` of dataset `{}` has {count} rows, too few for {k} outer and {m} inner folds (needs at least {needed}); lower `outer_folds` or `inner_folds` in [evaluation], or merge or drop the class",
+                table.source, table.name
+            )));
+        }
+    }
+    Ok(())
 }
 
 /// Reads and checks a manifest file.
@@ -588,7 +580,7 @@ pub fn append_dataset(
     target: &str,
     positive: Option<&str>,
     format: &CsvFormat,
-    table: &crate::data::Table,
+    table: &Table,
 ) -> Result<String> {
     let old = std::fs::read_to_string(manifest).map_err(|e| {
         Error::Manifest(format!(
@@ -690,7 +682,7 @@ pub fn append_dataset(
     })?;
     let mut checked = table.clone();
     checked.name = name.clone();
-    crate::data::check_class_counts(&checked, &exp.evaluation)?;
+    check_class_counts(&checked, &exp.evaluation)?;
     crate::common::files::write_atomic(manifest, text.as_bytes())?;
     Ok(name)
 }

@@ -3,15 +3,16 @@
 //! it is done, and the tables written once all cells are in.
 
 use crate::calibrate::{self, Calibrator};
-use crate::catalog::Catalog;
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::common::rng::derive_seed;
-use crate::data::{self, Table};
+use crate::data::catalog::Catalog;
+use crate::data::folds;
+use crate::data::source::{self, DataSource};
+use crate::data::table::Table;
 use crate::export::{Csv, Exporter};
-use crate::folds;
 use crate::learner::{self, Learner};
-use crate::manifest::{DataSource, Experiment};
+use crate::manifest::{check_class_counts, Experiment};
 use crate::metrics::{self, Metric, MetricOptions};
 use crate::protocol::{run_cell, CellPlan};
 use crate::store::{CellRecord, Store};
@@ -65,8 +66,8 @@ pub fn load_datasets(exp: &Experiment, datasets_dir: Option<&Path>) -> Result<Ve
     };
     let mut tables = Vec::with_capacity(exp.datasets.len());
     for spec in &exp.datasets {
-        let table = data::load(spec, catalog.as_ref(), exp.source.dir())?;
-        data::check_class_counts(&table, &exp.evaluation)?;
+        let table = source::load(spec, catalog.as_ref(), exp.source.dir())?;
+        check_class_counts(&table, &exp.evaluation)?;
         tables.push(table);
     }
     Ok(tables)
@@ -84,7 +85,7 @@ struct FingerprintInput<'a> {
     hl_groups: usize,
     bootstrap: usize,
     bootstrap_seed: u64,
-    dataset: &'a crate::manifest::DatasetSpec,
+    dataset: &'a crate::data::source::DatasetSpec,
     data_sha256: &'a str,
     family: &'a crate::manifest::FamilySpec,
     /// Left out at zero, so cells made before revisions existed keep their

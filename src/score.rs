@@ -14,13 +14,12 @@ use crate::calibrate::{self, CalibrationFile};
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::common::params::Params;
+use crate::data::folds;
+use crate::data::predictions::{self, Layout, Predictions};
+use crate::data::source::{DataSource, DatasetSpec};
 use crate::export::{Csv, Exporter};
-use crate::folds;
-use crate::manifest::{
-    DataSource, DatasetSpec, Evaluation, Experiment, FamilySpec, ManifestSource,
-};
+use crate::manifest::{Evaluation, Experiment, FamilySpec, ManifestSource};
 use crate::metrics::{self, Forecasts, MetricOptions};
-use crate::predictions::{self, Layout, Predictions};
 use crate::protocol::{fit_methods, measure_methods};
 use crate::store::{CellRecord, Store};
 use serde_json::json;

@@ -1,6 +1,7 @@
 //! Bad data files get one line naming the file and line and what to do.
 
-use candor::data::{check_class_counts, parse_csv};
+use candor::data::csv::parse_csv;
+use candor::manifest::check_class_counts;
 use candor::manifest::Evaluation;
 
 fn error_of(csv: &[u8], target: &str, positive: Option<&str>) -> String {
@@ -148,7 +149,7 @@ fn constant_columns_are_noted_and_all_constant_features_rejected() {
 #[test]
 fn categorical_and_missing_values_are_typed() {
     let t = parse_csv(b"n,colour,y\n1,red,0\n,blue,1\n3,,1\n", "in.csv", "y", None).unwrap();
-    use candor::data::ColumnData;
+    use candor::data::table::ColumnData;
     assert!(matches!(&t.columns[0].data, ColumnData::Numeric(v) if v[1].is_nan()));
     assert!(matches!(&t.columns[1].data,
         ColumnData::Categorical { levels, codes } if levels == &["blue", "red"] && codes[2] == u32::MAX));

@@ -2,7 +2,8 @@
 //! delimiters, decimal commas. Each must load to exactly the table the
 //! plain comma-separated file gives.
 
-use candor::data::{read_csv, CsvFormat, Table};
+use candor::data::csv::{read_csv, CsvFormat};
+use candor::data::table::Table;
 use std::io::Write;
 
 const PLAIN: &str = "age,city,score,y\n31,Ostend,2.5,yes\n45,Lyon,,no\n27,,3.75,yes\n52,Lyon,1.0,no\n38,Ostend,0.5,yes\n";
@@ -108,7 +109,9 @@ fn a_column_that_turns_to_text_late_is_categorical_with_every_level() {
         &CsvFormat::default(),
     );
     let levels = |i: usize| match &t.columns[i].data {
-        candor::data::ColumnData::Categorical { codes, levels } => (codes.clone(), levels.clone()),
+        candor::data::table::ColumnData::Categorical { codes, levels } => {
+            (codes.clone(), levels.clone())
+        }
         other => panic!("{other:?}"),
     };
     let (codes, levels_code) = levels(0);

@@ -48,7 +48,7 @@ mod every_family {
     use candor::calibrate::{self, Calibrator, Settings};
     use candor::common::params::Params;
     use candor::common::rng::SplitMix64;
-    use candor::data::parse_csv;
+    use candor::data::csv::parse_csv;
     use candor::learner::{self, FAMILIES};
     use candor::metrics::{MetricOptions, METRICS};
     use candor::protocol::{run_cell, CellPlan};
@@ -105,7 +105,7 @@ mod every_family {
 
     /// The error of one cell of `family` on the given rows.
     fn cell_error(
-        table: &candor::data::Table,
+        table: &candor::data::table::Table,
         train: &[usize],
         test: &[usize],
         family: &learner::Family,

@@ -6,8 +6,9 @@
 use candor::calibrate::{BinaryCalibrator, BinaryMap, Calibrator, Input, OneVsRest};
 use candor::common::error::Result;
 use candor::common::scores::Scores;
-use candor::data::{parse_csv, Table};
-use candor::folds;
+use candor::data::csv::parse_csv;
+use candor::data::folds;
+use candor::data::table::Table;
 use candor::learner::{Learner, Model};
 use candor::metrics::{MetricOptions, METRICS};
 use candor::protocol::{run_cell, CellPlan};

@@ -7,7 +7,7 @@
 //! CANDOR_FUZZ_ITERS sets another count.
 
 use candor::common::rng::SplitMix64;
-use candor::data::parse_csv;
+use candor::data::csv::parse_csv;
 use candor::manifest::{parse, ManifestSource};
 use std::path::{Path, PathBuf};
 

@@ -1,6 +1,6 @@
 //! `candor score`, `candor apply` and the demo scenario.
 
-use candor::demo;
+use candor::data::demo;
 use candor::metrics::{ece, Forecasts, MetricOptions};
 use ndarray::Array2;
 use std::path::Path;

@@ -5,6 +5,6 @@
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
-    let _ = candor::data::parse_csv(data, "fuzz.csv", "y", Some("yes"));
-    let _ = candor::data::parse_csv(data, "fuzz.csv", "a", None);
+    let _ = candor::data::csv::parse_csv(data, "fuzz.csv", "y", Some("yes"));
+    let _ = candor::data::csv::parse_csv(data, "fuzz.csv", "a", None);
 });

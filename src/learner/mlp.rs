@@ -13,7 +13,7 @@ use crate::common::error::{Error, Result};
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
 use crate::common::rng::SplitMix64;
 use crate::common::scores::{binary_from_log_odds, log_softmax_rows, Scores};
-use crate::folds;
+use crate::data::folds;
 use ndarray::{Array1, Array2, ArrayView2, Axis};
 
 pub const FAMILY: Family = Family {

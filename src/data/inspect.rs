@@ -3,9 +3,9 @@
 //! class balance against the fold counts, and columns that look like
 //! identifiers or that leak the target.
 
+use super::folds::class_fits_folds;
+use super::table::{ColumnData, Table, MISSING_CODE};
 use crate::common::table::{Table as Out, Value};
-use crate::data::{ColumnData, Table, MISSING_CODE};
-use crate::manifest::Evaluation;
 
 /// The findings.
 pub struct Inspection {
@@ -104,8 +104,9 @@ fn separation(data: &ColumnData, labels: &[usize], k: usize) -> Option<&'static 
     }
 }
 
-/// Inspects a loaded table against the fold counts it will meet.
-pub fn inspect(table: &Table, eval: &Evaluation) -> Inspection {
+/// Inspects a loaded table against the outer and inner fold counts it will
+/// meet.
+pub fn inspect(table: &Table, outer: usize, inner: usize) -> Inspection {
     let n = table.rows();
     let k = table.n_classes();
     let mut schema = Out::new(
@@ -205,8 +206,7 @@ pub fn inspect(table: &Table, eval: &Evaluation) -> Inspection {
             role.into(),
         ]);
     }
-    let (outer, inner) = (eval.outer_folds, eval.inner_folds);
-    let enough = |c: usize| c >= outer && c - c.div_ceil(outer) >= inner;
+    let enough = |c: usize| class_fits_folds(c, outer, inner);
     if let Some((rare, &count)) = table.classes.iter().zip(&counts).min_by_key(|(_, &c)| c) {
         classes.notes.push(format!(
             "Rarest class `{rare}`: {count} rows, {:.1} per outer test fold with {outer} outer and {inner} inner folds.",

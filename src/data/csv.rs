@@ -1,132 +1,18 @@
-//! Reading a dataset: CSV with a header row into typed columns and a
-//! class-index target.
+//! Reading CSV: a header row into typed columns and a class-index target.
 //!
 //! Columns whose every non-missing field is a number are numeric; any other
 //! column is categorical. An empty field (or `NA`) is missing. Nothing is
 //! imputed or encoded here: that depends on the training split and happens
-//! in [`crate::preprocess`].
+//! in [`super::preprocess`].
 
-use crate::catalog::Catalog;
+use super::table::{Column, ColumnData, Table, MISSING_CODE};
 use crate::common::checksum::{hex_sha256, hex_sha256_of};
 use crate::common::error::{Error, Result};
-use crate::manifest::{DataSource, DatasetSpec, Evaluation};
 use flate2::read::MultiGzDecoder;
 use serde::{Deserialize, Serialize};
 use std::collections::HashMap;
 use std::io::{BufRead, Read};
 use std::path::Path;
-
-/// Marks a missing categorical value.
-pub const MISSING_CODE: u32 = u32::MAX;
-
-/// A feature column.
-#[derive(Debug, Clone, PartialEq)]
-pub enum ColumnData {
-    /// Numbers; missing values are NaN.
-    Numeric(Vec<f64>),
-    /// Category codes into `levels` (sorted); missing is [`MISSING_CODE`].
-    Categorical {
-        codes: Vec<u32>,
-        levels: Vec<String>,
-    },
-}
-
-/// A named feature column.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Column {
-    pub name: String,
-    pub data: ColumnData,
-}
-
-/// A loaded dataset.
-#[derive(Debug, Clone)]
-pub struct Table {
-    /// The dataset's name in the manifest.
-    pub name: String,
-    /// The file it was read from, for messages.
-    pub source: String,
-    /// SHA-256 of the file's bytes.
-    pub sha256: String,
-    pub columns: Vec<Column>,
-    /// Class index of every row.
-    pub labels: Vec<usize>,
-    /// Class labels by index. Binary tasks are ordered `[negative, positive]`.
-    pub classes: Vec<String>,
-    /// Plain-words notes about dropped columns and the like.
-    pub warnings: Vec<String>,
-}
-
-impl Table {
-    /// Number of rows.
-    pub fn rows(&self) -> usize {
-        self.labels.len()
-    }
-
-    /// Number of classes.
-    pub fn n_classes(&self) -> usize {
-        self.classes.len()
-    }
-
-    /// Rows per class, by class index.
-    pub fn class_counts(&self) -> Vec<usize> {
-        let mut counts = vec![0; self.n_classes()];
-        for &y in &self.labels {
-            counts[y] += 1;
-        }
-        counts
-    }
-}
-
-/// Loads a manifest's dataset entry, from the catalog or from a path
-/// relative to `manifest_dir`.
-pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) -> Result<Table> {
-    let in_entry = |e: Error| match e {
-        Error::Data(m) => Error::Data(format!("{m} (dataset `{}` at {})", spec.name, spec.origin)),
-        other => other,
-    };
-    let (bytes, file, target, positive) = match &spec.source {
-        DataSource::Bundled(id) => {
-            let catalog = catalog.ok_or_else(|| {
-                Error::Data(format!(
-                    "{}: dataset `{}` is bundled but no catalog was found; pass --datasets DIR",
-                    spec.origin, spec.name
-                ))
-            })?;
-            let entry = catalog.get(id).map_err(|e| match e {
-                Error::Data(m) => Error::Data(format!("{}: {m}", spec.origin)),
-                other => other,
-            })?;
-            let bytes = catalog.read_verified(entry)?;
-            let file = catalog.dir.join(&entry.file).display().to_string();
-            let target = spec.target.clone().unwrap_or_else(|| entry.target.clone());
-            let positive = spec.positive.clone().or_else(|| entry.positive.clone());
-            (bytes, file, target, positive)
-        }
-        DataSource::Path(p) => {
-            let path = if p.is_absolute() {
-                p.clone()
-            } else {
-                manifest_dir.join(p)
-            };
-            if !path.is_file() {
-                return Err(Error::Io(format!(
-                    "{}: cannot read dataset `{}`: no such file; check `path` at {} (relative paths start at the manifest's folder)",
-                    path.display(),
-                    spec.name,
-                    spec.origin
-                )));
-            }
-            let target = spec.target.clone().unwrap_or_default();
-            let mut table = read_csv(&path, &target, spec.positive.as_deref(), &spec.format)
-                .map_err(in_entry)?;
-            table.name = spec.name.clone();
-            return Ok(table);
-        }
-    };
-    let mut table = parse_csv(&bytes, &file, &target, positive.as_deref()).map_err(in_entry)?;
-    table.name = spec.name.clone();
-    Ok(table)
-}
 
 fn is_missing(field: &str) -> bool {
     field.is_empty() || field == "NA"
@@ -561,23 +447,4 @@ fn uninformative(data: &ColumnData) -> Option<&'static str> {
             _ => None,
         },
     }
-}
-
-/// Checks that every class has enough rows for the fold counts: each outer
-/// fold must hold one of its rows, and each outer training split must hold
-/// one per inner fold.
-pub fn check_class_counts(table: &Table, eval: &Evaluation) -> Result<()> {
-    let k = eval.outer_folds;
-    let m = eval.inner_folds;
-    let enough = |c: usize| c >= k && c - c.div_ceil(k) >= m;
-    for (class, &count) in table.classes.iter().zip(&table.class_counts()) {
-        if !enough(count) {
-            let needed = (1..).find(|&c| enough(c)).unwrap_or(k.max(m));
-            return Err(Error::Data(format!(
-                "{}: class `{class}` of dataset `{}` has {count} rows, too few for {k} outer and {m} inner folds (needs at least {needed}); lower `outer_folds` or `inner_folds` in [evaluation], or merge or drop the class",
-                table.source, table.name
-            )));
-        }
-    }
-    Ok(())
 }

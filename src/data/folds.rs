@@ -40,6 +40,12 @@ pub fn split(assignment: &[usize], f: usize) -> (Vec<usize>, Vec<usize>) {
     (train, test)
 }
 
+/// Whether a class of `count` rows fits the folds: each outer fold must
+/// hold one of its rows, and each outer training split one per inner fold.
+pub fn class_fits_folds(count: usize, outer: usize, inner: usize) -> bool {
+    count >= outer && count - count.div_ceil(outer) >= inner
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -7,8 +7,8 @@
 //! that are constant on the training rows are left out, since they carry no
 //! information there and would divide by zero when scaled.
 
+use super::table::{ColumnData, Table, MISSING_CODE};
 use crate::common::math::median;
-use crate::data::{ColumnData, Table, MISSING_CODE};
 use ndarray::Array2;
 
 /// One output column: where it comes from and how it is shifted and scaled.
@@ -142,7 +142,7 @@ impl Preprocessor {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::data::parse_csv;
+    use crate::data::csv::parse_csv;
 
     const CSV: &str = "\
 num,colour,y

@@ -1,0 +1,90 @@
+//! Where a dataset comes from: a bundled catalog entry or a CSV path, with
+//! the target, positive class and file format the manifest gives, and the
+//! loading of either into a [`Table`].
+
+use super::catalog::Catalog;
+use super::csv::{parse_csv, read_csv, CsvFormat};
+use super::table::Table;
+use crate::common::error::{Error, Result};
+use serde::{Deserialize, Serialize};
+use std::path::{Path, PathBuf};
+
+/// Where a dataset's CSV comes from.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DataSource {
+    /// An entry of the bundled catalog, by id.
+    Bundled(String),
+    /// A CSV path, relative to the manifest's folder unless absolute.
+    Path(PathBuf),
+}
+
+/// One dataset entry.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct DatasetSpec {
+    /// The label used in tables and result paths.
+    pub name: String,
+    pub source: DataSource,
+    /// The target column; bundled datasets default to the catalog's.
+    pub target: Option<String>,
+    /// The positive class of a binary target; bundled datasets default to the
+    /// catalog's, other files to `1` or `true` when those are the labels.
+    pub positive: Option<String>,
+    /// The file's delimiter and decimal mark (`delimiter`, `decimal`).
+    #[serde(default, skip_serializing_if = "CsvFormat::is_default")]
+    pub format: CsvFormat,
+    /// `file:line:column` of the entry, for later error messages.
+    #[serde(skip)]
+    pub origin: String,
+}
+
+/// Loads a manifest's dataset entry, from the catalog or from a path
+/// relative to `manifest_dir`.
+pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) -> Result<Table> {
+    let in_entry = |e: Error| match e {
+        Error::Data(m) => Error::Data(format!("{m} (dataset `{}` at {})", spec.name, spec.origin)),
+        other => other,
+    };
+    let (bytes, file, target, positive) = match &spec.source {
+        DataSource::Bundled(id) => {
+            let catalog = catalog.ok_or_else(|| {
+                Error::Data(format!(
+                    "{}: dataset `{}` is bundled but no catalog was found; pass --datasets DIR",
+                    spec.origin, spec.name
+                ))
+            })?;
+            let entry = catalog.get(id).map_err(|e| match e {
+                Error::Data(m) => Error::Data(format!("{}: {m}", spec.origin)),
+                other => other,
+            })?;
+            let bytes = catalog.read_verified(entry)?;
+            let file = catalog.dir.join(&entry.file).display().to_string();
+            let target = spec.target.clone().unwrap_or_else(|| entry.target.clone());
+            let positive = spec.positive.clone().or_else(|| entry.positive.clone());
+            (bytes, file, target, positive)
+        }
+        DataSource::Path(p) => {
+            let path = if p.is_absolute() {
+                p.clone()
+            } else {
+                manifest_dir.join(p)
+            };
+            if !path.is_file() {
+                return Err(Error::Io(format!(
+                    "{}: cannot read dataset `{}`: no such file; check `path` at {} (relative paths start at the manifest's folder)",
+                    path.display(),
+                    spec.name,
+                    spec.origin
+                )));
+            }
+            let target = spec.target.clone().unwrap_or_default();
+            let mut table = read_csv(&path, &target, spec.positive.as_deref(), &spec.format)
+                .map_err(in_entry)?;
+            table.name = spec.name.clone();
+            return Ok(table);
+        }
+    };
+    let mut table = parse_csv(&bytes, &file, &target, positive.as_deref()).map_err(in_entry)?;
+    table.name = spec.name.clone();
+    Ok(table)
+}
