@@ -1,10 +1,11 @@
 //! The `candor` command line: a thin layer over the library.
 
 use candor::data::catalog;
+use candor::experiment::manifest;
+use candor::experiment::runner::{self, RunOptions};
 use candor::export::{Exporter, Text};
 use candor::report::ReportOptions;
-use candor::runner::{self, RunOptions};
-use candor::{calibrate, learner, manifest, metrics};
+use candor::{calibrate, learner, metrics};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::fmt::Write as _;
 use std::io::{IsTerminal, Write as _};
@@ -439,7 +440,7 @@ fn data_command(command: DataCommand, text: &mut String) -> candor::Result<ExitC
             let format = csv.format()?;
             let table =
                 candor::data::csv::read_csv(&file, &csv.target, csv.positive.as_deref(), &format)?;
-            let entry = candor::manifest::append_dataset(
+            let entry = candor::experiment::manifest::append_dataset(
                 &to,
                 &file,
                 name.as_deref(),
@@ -609,7 +610,7 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
                 .map_or("predictions".into(), |s| s.to_string_lossy().to_string());
             let out_dir =
                 out.unwrap_or_else(|| PathBuf::from("results").join(format!("score-{stem}")));
-            let opts = candor::score::ScoreOptions {
+            let opts = candor::experiment::score::ScoreOptions {
                 layout: layout.layout(true, &predictions),
                 folds,
                 seed,
@@ -618,21 +619,22 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
                 model,
                 out_dir: out_dir.clone(),
             };
-            let scored = candor::score::score(&predictions, &opts)?;
+            let scored = candor::experiment::score::score(&predictions, &opts)?;
             let html = candor::report::generate(&out_dir, &ReportOptions::default())?;
             if let (Some(method), Some(file)) = (fit, save) {
-                candor::score::save_fit(&scored.predictions, &method, &file)?;
+                candor::experiment::score::save_fit(&scored.predictions, &method, &file)?;
                 eprintln!("saved the {method} map to {}", file.display());
             }
             if json {
-                let v = candor::score::metrics_json(&scored.predictions, bins);
+                let v = candor::experiment::score::metrics_json(&scored.predictions, bins);
                 let _ = writeln!(
                     text,
                     "{}",
                     serde_json::to_string_pretty(&v).unwrap_or_default()
                 );
             } else {
-                let summary = candor::summary::summarise(&scored.experiment, &scored.records);
+                let summary =
+                    candor::experiment::summary::summarise(&scored.experiment, &scored.records);
                 for metric in ["ece", "brier"] {
                     if let Some(t) = summary.by_method(metric) {
                         text.push_str(&Text.render(&t));
@@ -654,8 +656,11 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             layout,
             out,
         } => {
-            let csv =
-                candor::score::apply(&map, &predictions, &layout.layout(false, &predictions))?;
+            let csv = candor::experiment::score::apply(
+                &map,
+                &predictions,
+                &layout.layout(false, &predictions),
+            )?;
             match out {
                 Some(path) => candor::common::files::write_atomic(&path, csv.as_bytes())?,
                 None => text.push_str(&csv),

@@ -1,8 +1,8 @@
 //! Bad data files get one line naming the file and line and what to do.
 
 use candor::data::csv::parse_csv;
-use candor::manifest::check_class_counts;
-use candor::manifest::Evaluation;
+use candor::experiment::manifest::check_class_counts;
+use candor::experiment::manifest::Evaluation;
 
 fn error_of(csv: &[u8], target: &str, positive: Option<&str>) -> String {
     match parse_csv(csv, "in.csv", target, positive) {
@@ -166,7 +166,7 @@ fn a_class_too_rare_for_the_folds() {
     let eval = Evaluation {
         outer_folds: 5,
         inner_folds: 5,
-        ..candor::manifest::default_evaluation(0)
+        ..candor::experiment::manifest::default_evaluation(0)
     };
     let msg = check_class_counts(&t, &eval).unwrap_err().to_string();
     assert!(

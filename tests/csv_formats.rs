@@ -76,7 +76,7 @@ fn manifests_take_delimiter_and_decimal() {
     let base = "name = \"x\"\n[[dataset]]\nname = \"e\"\npath = \"e.csv\"\ntarget = \"y\"\npositive = \"yes\"\n";
     let m = tmp.path().join("m.toml");
     std::fs::write(&m, format!("{base}delimiter = \";\"\ndecimal = \",\"\n[[family]]\nname = \"lr\"\nkind = \"logistic\"\n")).unwrap();
-    let exp = candor::manifest::load(&m).unwrap();
+    let exp = candor::experiment::manifest::load(&m).unwrap();
     assert_eq!(exp.datasets[0].format.delimiter, b';');
     assert!(exp.datasets[0].format.decimal_comma);
     for (extra, want) in [
@@ -89,7 +89,10 @@ fn manifests_take_delimiter_and_decimal() {
             format!("{base}{extra}[[family]]\nname = \"lr\"\nkind = \"logistic\"\n"),
         )
         .unwrap();
-        let err = candor::manifest::load(&m).err().unwrap().to_string();
+        let err = candor::experiment::manifest::load(&m)
+            .err()
+            .unwrap()
+            .to_string();
         assert!(
             err.contains(want) && err.contains("m.toml:"),
             "{extra}: {err}"

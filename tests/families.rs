@@ -49,9 +49,9 @@ mod every_family {
     use candor::common::params::Params;
     use candor::common::rng::SplitMix64;
     use candor::data::csv::parse_csv;
+    use candor::experiment::protocol::{run_cell, CellPlan};
     use candor::learner::{self, FAMILIES};
     use candor::metrics::{MetricOptions, METRICS};
-    use candor::protocol::{run_cell, CellPlan};
     use ndarray::Array2;
 
     /// Noisy data with a signal in the first two columns and K classes.

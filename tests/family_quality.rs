@@ -9,8 +9,8 @@
 //! "within noise": the two means may differ by at most three standard errors
 //! of their difference, sqrt(sd_a^2 + sd_b^2) / sqrt(5).
 
-use candor::manifest::{self, ManifestSource};
-use candor::runner::{run, RunOptions};
+use candor::experiment::manifest::{self, ManifestSource};
+use candor::experiment::runner::{run, RunOptions};
 use std::path::Path;
 
 /// (dataset, our family, peer model, peer mean AUC, peer sd).

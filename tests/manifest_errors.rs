@@ -1,7 +1,7 @@
 //! Every kind of bad manifest gets one line naming the file, line and column
 //! and saying what is allowed.
 
-use candor::manifest::{parse, ManifestSource};
+use candor::experiment::manifest::{parse, ManifestSource};
 
 const HEAD: &str = "name = \"t\"\nseed = 1\n";
 const DATA: &str = "[[dataset]]\nname = \"iris\"\nbundled = \"iris\"\n";

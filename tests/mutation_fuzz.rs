@@ -8,7 +8,7 @@
 
 use candor::common::rng::SplitMix64;
 use candor::data::csv::parse_csv;
-use candor::manifest::{parse, ManifestSource};
+use candor::experiment::manifest::{parse, ManifestSource};
 use std::path::{Path, PathBuf};
 
 const SPLICES: &[&[u8]] = &[

@@ -1,8 +1,8 @@
 //! End-to-end runs on bundled open data: determinism across thread counts,
 //! resuming after interruption, and failing cells that do not stop the rest.
 
-use candor::manifest::{self, Experiment};
-use candor::runner::{run, RunOptions};
+use candor::experiment::manifest::{self, Experiment};
+use candor::experiment::runner::{run, RunOptions};
 use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::time::{Duration, Instant};

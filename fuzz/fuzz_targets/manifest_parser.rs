@@ -5,7 +5,7 @@
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
-    let _ = candor::manifest::parse(candor::manifest::ManifestSource {
+    let _ = candor::experiment::manifest::parse(candor::experiment::manifest::ManifestSource {
         path: std::path::PathBuf::from("fuzz.toml"),
         text: String::from_utf8_lossy(data).into_owned(),
         sha256: String::new(),

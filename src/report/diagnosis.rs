@@ -23,7 +23,7 @@
 use super::{test_over_train, Results};
 use crate::common::stats::fold_interval;
 use crate::common::table::{Table, Value};
-use crate::summary::fold_values;
+use crate::experiment::summary::fold_values;
 
 /// How far the slope must be from 1 to count.
 pub const SLOPE_MARGIN: f64 = 0.15;

@@ -8,8 +8,8 @@
 
 use super::{Figure, Ranking, Results};
 use crate::common::error::{Error, Result};
+use crate::experiment::summary::{fold_values, method_result};
 use crate::metrics::reliability::{wilson, Z95};
-use crate::summary::{fold_values, method_result};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use serde::Serialize;

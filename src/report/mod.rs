@@ -17,9 +17,9 @@ pub use tables::{intervals, Interval};
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::common::table::Table;
+use crate::experiment::manifest::{Experiment, ManifestSource};
+use crate::experiment::store::CellRecord;
 use crate::export::TABLE_FORMATS;
-use crate::manifest::{Experiment, ManifestSource};
-use crate::store::CellRecord;
 use std::path::{Path, PathBuf};
 
 /// Choices a reader can make about the report.

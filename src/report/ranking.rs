@@ -6,8 +6,8 @@ use super::tables::{badness, direction};
 use super::Results;
 use crate::common::stats::{critical_difference, friedman, nemenyi_q, ranks, Friedman};
 use crate::common::table::{Table, Value};
+use crate::experiment::summary::fold_values;
 use crate::metrics::Metric;
-use crate::summary::fold_values;
 
 /// The ranking of every (family, method) pair on one metric.
 #[derive(Debug, Clone)]

@@ -5,8 +5,8 @@
 use super::{test_over_train, Results};
 use crate::common::stats::fold_interval;
 use crate::common::table::{Table, Value};
+use crate::experiment::summary::fold_values;
 use crate::metrics::Metric;
-use crate::summary::fold_values;
 use std::collections::BTreeMap;
 
 /// A mean over folds with its 95% interval, and the paired change from the

@@ -9,7 +9,7 @@
 
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
-use crate::protocol::MethodResult;
+use crate::experiment::protocol::MethodResult;
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 

@@ -17,11 +17,11 @@ use crate::common::params::Params;
 use crate::data::folds;
 use crate::data::predictions::{self, Layout, Predictions};
 use crate::data::source::{DataSource, DatasetSpec};
+use crate::experiment::manifest::{Evaluation, Experiment, FamilySpec, ManifestSource};
+use crate::experiment::protocol::{fit_methods, measure_methods};
+use crate::experiment::store::{CellRecord, Store};
 use crate::export::{Csv, Exporter};
-use crate::manifest::{Evaluation, Experiment, FamilySpec, ManifestSource};
 use crate::metrics::{self, Forecasts, MetricOptions};
-use crate::protocol::{fit_methods, measure_methods};
-use crate::store::{CellRecord, Store};
 use serde_json::json;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -204,7 +204,7 @@ fn write(
         jsonl.push('\n');
     }
     write_atomic(&store.dir.join("records.jsonl"), jsonl.as_bytes())?;
-    let summary = crate::summary::summarise(exp, records);
+    let summary = crate::experiment::summary::summarise(exp, records);
     write_atomic(
         &store.dir.join("summary.csv"),
         Csv.render(&summary.table()).as_bytes(),

@@ -1,10 +1,10 @@
 //! Folding per-fold records into one row per (dataset, family, method).
 
 use crate::common::table::{Table, Value};
-use crate::manifest::Experiment;
+use crate::experiment::manifest::Experiment;
+use crate::experiment::protocol::MethodResult;
+use crate::experiment::store::CellRecord;
 use crate::metrics;
-use crate::protocol::MethodResult;
-use crate::store::CellRecord;
 
 /// Mean and spread of one metric over all folds; NaN when the family or
 /// method failed, or the metric was undefined, in any of them.

@@ -10,13 +10,13 @@ use crate::data::catalog::Catalog;
 use crate::data::folds;
 use crate::data::source::{self, DataSource};
 use crate::data::table::Table;
+use crate::experiment::manifest::{check_class_counts, Experiment};
+use crate::experiment::protocol::{run_cell, CellPlan};
+use crate::experiment::store::{CellRecord, Store};
+use crate::experiment::summary::{summarise, Summary};
 use crate::export::{Csv, Exporter};
 use crate::learner::{self, Learner};
-use crate::manifest::{check_class_counts, Experiment};
 use crate::metrics::{self, Metric, MetricOptions};
-use crate::protocol::{run_cell, CellPlan};
-use crate::store::{CellRecord, Store};
-use crate::summary::{summarise, Summary};
 use indicatif::{ProgressBar, ProgressStyle};
 use rayon::prelude::*;
 use serde::Serialize;
@@ -87,7 +87,7 @@ struct FingerprintInput<'a> {
     bootstrap_seed: u64,
     dataset: &'a crate::data::source::DatasetSpec,
     data_sha256: &'a str,
-    family: &'a crate::manifest::FamilySpec,
+    family: &'a crate::experiment::manifest::FamilySpec,
     /// Left out at zero, so cells made before revisions existed keep their
     /// fingerprints.
     #[serde(skip_serializing_if = "is_zero")]
