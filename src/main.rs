@@ -552,7 +552,7 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
         } => {
             let loaded = candor::report::Results::load(&results)?;
             if update {
-                candor::gate::update(&loaded, &baseline)?;
+                candor::gate::baseline::update(&loaded, &baseline)?;
                 let _ = writeln!(
                     text,
                     "baseline updated: {}; review and commit the diff",
@@ -564,16 +564,16 @@ fn run_command(command: Command, text: &mut String) -> candor::Result<ExitCode> 
             if let Some(path) = junit {
                 candor::common::files::write_atomic(
                     &path,
-                    candor::gate::junit(&outcome).as_bytes(),
+                    candor::gate::render::junit(&outcome).as_bytes(),
                 )?;
             }
             if let Some(path) = markdown {
                 candor::common::files::write_atomic(
                     &path,
-                    candor::gate::markdown(&outcome).as_bytes(),
+                    candor::gate::render::markdown(&outcome).as_bytes(),
                 )?;
             }
-            text.push_str(&candor::gate::human(&outcome));
+            text.push_str(&candor::gate::render::human(&outcome));
             Ok(if outcome.passed() {
                 ExitCode::SUCCESS
             } else {
