@@ -8,6 +8,7 @@
 //! [`metrics::METRICS`] and the [`export::Exporter`] implementations.
 
 pub mod calibrate;
+pub mod commands;
 pub mod common;
 pub mod data;
 pub mod experiment;

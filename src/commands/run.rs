@@ -1,0 +1,107 @@
+//! `candor run`: the main job. Runs every cell a manifest implies, prints
+//! calibration error before and after each method, and writes the report.
+
+use super::{Output, Status};
+use crate::common::error::Result;
+use crate::experiment::manifest;
+use crate::experiment::runner::{self, RunOptions};
+use crate::export::{Exporter, Text};
+use crate::report::{self, ReportOptions};
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+/// The arguments of `candor run`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct RunArgs {
+    /// The experiment manifest (TOML).
+    pub manifest: PathBuf,
+    /// Results folder [default: results/<experiment name>].
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Worker threads; 0 uses every core. Results do not depend on it.
+    #[arg(long, default_value_t = 0)]
+    pub threads: usize,
+    /// Folder holding the bundled datasets and their catalog.json.
+    #[arg(long)]
+    pub datasets: Option<PathBuf>,
+    /// No progress bar and no table; errors only.
+    #[arg(long, short)]
+    pub quiet: bool,
+    /// Metric that decides "best" and the ranking in the report.
+    #[arg(long, default_value = "brier")]
+    pub metric: String,
+    /// Also write PNG copies of the report's figures.
+    #[arg(long)]
+    pub png: bool,
+}
+
+/// Runs the manifest. `progress` draws a progress bar on standard error
+/// (the binary passes whether that is a terminal).
+pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status> {
+    let exp = manifest::load(&args.manifest)?;
+    let out_dir = args
+        .out
+        .unwrap_or_else(|| PathBuf::from("results").join(&exp.name));
+    let options = RunOptions {
+        out_dir: out_dir.clone(),
+        threads: args.threads,
+        datasets_dir: args.datasets,
+        progress: progress && !args.quiet,
+    };
+    let done = runner::run(&exp, &options)?;
+    for w in &done.warnings {
+        out.note(format!("note: {w}"));
+    }
+    if done.fallbacks > 0 {
+        out.note(format!(
+            "note: {} method result(s) took a documented fallback (a single class or equal scores in a calibration fold, separated scores); see \"warnings\" in {}/records.jsonl",
+            done.fallbacks,
+            out_dir.display()
+        ));
+    }
+    if !args.quiet {
+        // ECE and Brier when the manifest has them, else its first two.
+        let mut shown: Vec<&str> = ["ece", "brier"]
+            .into_iter()
+            .filter(|m| exp.metrics.iter().any(|x| x == m))
+            .collect();
+        if shown.is_empty() {
+            shown = exp.metrics.iter().take(2).map(String::as_str).collect();
+        }
+        for metric in shown {
+            if let Some(t) = done.summary.by_method(metric) {
+                out.text.push_str(&Text.render(&t));
+                out.text.push('\n');
+            }
+        }
+        let _ = writeln!(
+            out.text,
+            "{} cells computed, {} reused; results in {}",
+            done.computed,
+            done.reused,
+            out_dir.display()
+        );
+    }
+    let html = report::generate(
+        &out_dir,
+        &ReportOptions {
+            metric: args.metric,
+            png: args.png,
+        },
+    )?;
+    if !args.quiet {
+        let _ = writeln!(out.text, "report: {}", html.display());
+    }
+    if done.failures.is_empty() {
+        return Ok(Status::Success);
+    }
+    for f in &done.failures {
+        out.note(format!("failed: {f}"));
+    }
+    out.note(format!(
+        "error: {} cell(s) or method(s) failed; their errors are in {}/records.jsonl, the other results are complete",
+        done.failures.len(),
+        out_dir.display()
+    ));
+    Ok(Status::CellsFailed)
+}

@@ -1,0 +1,134 @@
+//! `candor score` and `candor apply`: the same metrics, diagnosis and
+//! cross-fitted calibration for predictions made outside candor, and the
+//! use of a saved calibration map on new predictions.
+
+use super::args::LayoutArgs;
+use super::{Output, Status};
+use crate::calibrate;
+use crate::common::error::{Error, Result};
+use crate::common::files::write_atomic;
+use crate::experiment::score::{self, ScoreOptions};
+use crate::experiment::summary::summarise;
+use crate::export::{Exporter, Text};
+use crate::report::{self, ReportOptions};
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+/// The arguments of `candor score`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct ScoreArgs {
+    /// CSV of true labels and predicted probabilities.
+    pub predictions: PathBuf,
+    #[command(flatten)]
+    pub layout: LayoutArgs,
+    /// Cross-fitting folds.
+    #[arg(long, default_value_t = 5)]
+    pub folds: usize,
+    /// Seed of the fold split and the bootstrap.
+    #[arg(long, default_value_t = 20261202)]
+    pub seed: u64,
+    /// Equal-width bins for ECE and the reliability diagrams.
+    #[arg(long, default_value_t = 15)]
+    pub bins: usize,
+    /// Bootstrap resamples per fold for the ECE and Brier intervals.
+    #[arg(long, default_value_t = 200)]
+    pub bootstrap: usize,
+    /// The model's name in the tables.
+    #[arg(long, default_value = "model")]
+    pub model: String,
+    /// Results folder [default: results/score-<file name>].
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Print the predictions' metrics as JSON on standard output.
+    #[arg(long)]
+    pub json: bool,
+    /// Fit this method on every row and save it (with --save).
+    #[arg(long, requires = "save")]
+    pub fit: Option<String>,
+    /// Where --fit writes the calibration map (JSON).
+    #[arg(long, requires = "fit")]
+    pub save: Option<PathBuf>,
+}
+
+/// Scores the predictions into a results folder with its report.
+pub fn execute(args: ScoreArgs, out: &mut Output) -> Result<Status> {
+    if args.folds < 2 {
+        return Err(Error::Manifest("--folds must be at least 2".into()));
+    }
+    if let Some(m) = args.fit.as_deref().filter(|m| calibrate::find(m).is_none()) {
+        return Err(Error::Manifest(format!(
+            "--fit {m}: unknown method; choose one of: {}",
+            calibrate::known_methods()
+        )));
+    }
+    let stem = args
+        .predictions
+        .file_stem()
+        .map_or("predictions".into(), |s| s.to_string_lossy().to_string());
+    let out_dir = args
+        .out
+        .unwrap_or_else(|| PathBuf::from("results").join(format!("score-{stem}")));
+    let opts = ScoreOptions {
+        layout: args.layout.layout(true, &args.predictions),
+        folds: args.folds,
+        seed: args.seed,
+        bins: args.bins,
+        bootstrap: args.bootstrap,
+        model: args.model,
+        out_dir: out_dir.clone(),
+    };
+    let scored = score::score(&args.predictions, &opts)?;
+    let html = report::generate(&out_dir, &ReportOptions::default())?;
+    if let (Some(method), Some(file)) = (args.fit, args.save) {
+        score::save_fit(&scored.predictions, &method, &file)?;
+        out.note(format!("saved the {method} map to {}", file.display()));
+    }
+    if args.json {
+        let v = score::metrics_json(&scored.predictions, args.bins);
+        let _ = writeln!(
+            out.text,
+            "{}",
+            serde_json::to_string_pretty(&v).unwrap_or_default()
+        );
+        return Ok(Status::Success);
+    }
+    let summary = summarise(&scored.experiment, &scored.records);
+    for metric in ["ece", "brier"] {
+        if let Some(t) = summary.by_method(metric) {
+            out.text.push_str(&Text.render(&t));
+            out.text.push('\n');
+        }
+    }
+    let _ = writeln!(
+        out.text,
+        "results in {}; report: {}",
+        out_dir.display(),
+        html.display()
+    );
+    Ok(Status::Success)
+}
+
+/// The arguments of `candor apply`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct ApplyArgs {
+    /// The map `candor score --fit METHOD --save FILE` wrote.
+    pub map: PathBuf,
+    /// CSV of predicted probabilities (a label column is optional).
+    pub predictions: PathBuf,
+    #[command(flatten)]
+    pub layout: LayoutArgs,
+    /// Output CSV [default: standard output].
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+}
+
+/// Writes the predictions with calibrated columns added.
+pub fn apply(args: ApplyArgs, out: &mut Output) -> Result<Status> {
+    let layout = args.layout.layout(false, &args.predictions);
+    let csv = score::apply(&args.map, &args.predictions, &layout)?;
+    match args.out {
+        Some(path) => write_atomic(&path, csv.as_bytes())?,
+        None => out.text.push_str(&csv),
+    }
+    Ok(Status::Success)
+}
