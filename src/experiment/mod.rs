@@ -10,6 +10,8 @@
 //! `export`; never `report`, `gate` or `commands`, which build on it.
 
 pub mod manifest;
+pub mod outputs;
+pub mod plan;
 pub mod protocol;
 pub mod runner;
 pub mod score;
