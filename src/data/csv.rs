@@ -6,6 +6,7 @@
 //! in [`super::preprocess`].
 
 use super::table::{Column, ColumnData, Table, MISSING_CODE};
+use super::target::encode_target;
 use crate::common::checksum::{hex_sha256, hex_sha256_of};
 use crate::common::error::{Error, Result};
 use flate2::read::MultiGzDecoder;
@@ -119,8 +120,33 @@ fn parse_stream(
             "{file}: decimal commas need another field delimiter, such as `;`"
         )));
     }
-    // Pass 1: the header, the target, and which columns are all numbers.
     let mut rdr = csv_reader(open()?, format);
+    let headers = read_header(&mut rdr, file)?;
+    let target_idx = find_target(&headers, file, target, format)?;
+    let (mut building, targets) =
+        first_pass(&mut rdr, file, target, target_idx, headers.len(), format)?;
+    let (labels, classes) = encode_target(file, target, &targets, positive)?;
+    drop(targets);
+    second_pass(open, file, format, &mut building, labels.len())?;
+    let (columns, warnings) = finish_columns(file, &headers, building, target_idx)?;
+    if columns.is_empty() {
+        return Err(Error::Data(format!(
+            "{file}: no usable feature columns besides the target `{target}`; add at least one varying column"
+        )));
+    }
+    Ok(Table {
+        name: String::new(),
+        source: file.to_string(),
+        sha256,
+        columns,
+        labels,
+        classes,
+        warnings,
+    })
+}
+
+/// The column names, which must exist and be unique.
+fn read_header(rdr: &mut csv::Reader<Box<dyn Read + '_>>, file: &str) -> Result<Vec<String>> {
     let headers = rdr
         .headers()
         .map_err(|e| csv_error(file, &e))?
@@ -139,39 +165,88 @@ fn parse_stream(
             )));
         }
     }
-    let Some(target_idx) = headers.iter().position(|h| h == target) else {
-        let shown: Vec<&str> = headers.iter().take(20).map(String::as_str).collect();
-        let more = if headers.len() > 20 { ", ..." } else { "" };
-        let hint = if headers.len() == 1 && format.delimiter == b',' {
-            " (one column only: if the file uses `;` or tabs, set `delimiter`)"
-        } else {
-            ""
-        };
-        return Err(Error::Data(format!(
-            "{file}: no column named `{target}` for the target; columns are: {}{more}{hint}; set `target` to one of them",
-            shown.join(", ")
-        )));
-    };
-    // One pass fills typed columns: a column stays numeric while every
-    // field is a number or missing. A column that meets text after numbers
-    // is re-read as categorical in a second pass over those columns only.
-    enum Building {
-        Numbers(Vec<f64>, Option<(u64, String)>),
-        Codes(Vec<u32>, HashMap<String, u32>),
-        Pending,
+    Ok(headers)
+}
+
+/// The target's position, or an error listing the columns there are.
+fn find_target(headers: &[String], file: &str, target: &str, format: &CsvFormat) -> Result<usize> {
+    if let Some(i) = headers.iter().position(|h| h == target) {
+        return Ok(i);
     }
-    let code = |codes: &mut Vec<u32>, seen: &mut HashMap<String, u32>, field: &str| {
-        if is_missing(field) {
-            codes.push(MISSING_CODE);
-        } else if let Some(&c) = seen.get(field) {
-            codes.push(c);
-        } else {
-            let c = seen.len() as u32;
-            seen.insert(field.to_string(), c);
-            codes.push(c);
-        }
+    let shown: Vec<&str> = headers.iter().take(20).map(String::as_str).collect();
+    let more = if headers.len() > 20 { ", ..." } else { "" };
+    let hint = if headers.len() == 1 && format.delimiter == b',' {
+        " (one column only: if the file uses `;` or tabs, set `delimiter`)"
+    } else {
+        ""
     };
-    let mut building: Vec<Building> = (0..headers.len())
+    Err(Error::Data(format!(
+        "{file}: no column named `{target}` for the target; columns are: {}{more}{hint}; set `target` to one of them",
+        shown.join(", ")
+    )))
+}
+
+/// A column while it is read. It stays numeric while every field is a
+/// number or missing; a column that meets text after numbers is `Pending`
+/// and re-read as categorical in a second pass over those columns only.
+enum Building {
+    /// The values, and the first non-finite one with its line.
+    Numbers(Vec<f64>, Option<(u64, String)>),
+    /// Level codes in order of first appearance, and the levels seen.
+    Codes(Vec<u32>, HashMap<String, u32>),
+    Pending,
+}
+
+impl Building {
+    fn push(&mut self, field: &str, line: u64, format: &CsvFormat) {
+        match self {
+            Building::Numbers(v, bad) => {
+                if is_missing(field) {
+                    v.push(f64::NAN);
+                } else if let Some(x) = format.number(field) {
+                    if !x.is_finite() && bad.is_none() {
+                        *bad = Some((line, field.to_string()));
+                    }
+                    v.push(x);
+                } else if v.iter().all(|x| x.is_nan()) {
+                    // Only missing values so far: categorical from here.
+                    let mut codes = vec![MISSING_CODE; v.len()];
+                    let mut seen = HashMap::new();
+                    push_code(&mut codes, &mut seen, field);
+                    *self = Building::Codes(codes, seen);
+                } else {
+                    *self = Building::Pending;
+                }
+            }
+            Building::Codes(codes, seen) => push_code(codes, seen, field),
+            Building::Pending => {}
+        }
+    }
+}
+
+fn push_code(codes: &mut Vec<u32>, seen: &mut HashMap<String, u32>, field: &str) {
+    if is_missing(field) {
+        codes.push(MISSING_CODE);
+    } else if let Some(&c) = seen.get(field) {
+        codes.push(c);
+    } else {
+        let c = seen.len() as u32;
+        seen.insert(field.to_string(), c);
+        codes.push(c);
+    }
+}
+
+/// Reads every row once: the target's labels and each other column's
+/// values (the target's slot stays an empty, unused column).
+fn first_pass(
+    rdr: &mut csv::Reader<Box<dyn Read + '_>>,
+    file: &str,
+    target: &str,
+    target_idx: usize,
+    n_columns: usize,
+    format: &CsvFormat,
+) -> Result<(Vec<Building>, Vec<String>)> {
+    let mut building: Vec<Building> = (0..n_columns)
         .map(|_| Building::Numbers(Vec::new(), None))
         .collect();
     let mut targets: Vec<String> = Vec::new();
@@ -191,31 +266,8 @@ fn parse_stream(
         }
         targets.push(record[target_idx].to_string());
         for (c, field) in record.iter().enumerate() {
-            if c == target_idx {
-                continue;
-            }
-            let b = &mut building[c];
-            match b {
-                Building::Numbers(v, bad) => {
-                    if is_missing(field) {
-                        v.push(f64::NAN);
-                    } else if let Some(x) = format.number(field) {
-                        if !x.is_finite() && bad.is_none() {
-                            *bad = Some((line, field.to_string()));
-                        }
-                        v.push(x);
-                    } else if v.iter().all(|x| x.is_nan()) {
-                        // Only missing values so far: categorical from here.
-                        let mut codes = vec![MISSING_CODE; v.len()];
-                        let mut seen = HashMap::new();
-                        code(&mut codes, &mut seen, field);
-                        *b = Building::Codes(codes, seen);
-                    } else {
-                        *b = Building::Pending;
-                    }
-                }
-                Building::Codes(codes, seen) => code(codes, seen, field),
-                Building::Pending => {}
+            if c != target_idx {
+                building[c].push(field, line, format);
             }
         }
     }
@@ -224,32 +276,53 @@ fn parse_stream(
             "{file}: no data rows after the header; add rows"
         )));
     }
-    let (labels, classes) = encode_target(file, target, &targets, positive)?;
-    drop(targets);
-    if building.iter().any(|b| matches!(b, Building::Pending)) {
-        let pending: Vec<usize> = (0..headers.len())
-            .filter(|&c| matches!(building[c], Building::Pending))
-            .collect();
-        for &c in &pending {
-            building[c] = Building::Codes(Vec::with_capacity(labels.len()), HashMap::new());
+    Ok((building, targets))
+}
+
+/// Re-reads the file for the pending columns only, as categorical.
+fn second_pass(
+    open: &mut Opener<'_>,
+    file: &str,
+    format: &CsvFormat,
+    building: &mut [Building],
+    rows: usize,
+) -> Result<()> {
+    let pending: Vec<usize> = (0..building.len())
+        .filter(|&c| matches!(building[c], Building::Pending))
+        .collect();
+    if pending.is_empty() {
+        return Ok(());
+    }
+    for &c in &pending {
+        building[c] = Building::Codes(Vec::with_capacity(rows), HashMap::new());
+    }
+    let mut rdr = csv_reader(open()?, format);
+    rdr.headers().map_err(|e| csv_error(file, &e))?;
+    let mut record = csv::StringRecord::new();
+    while rdr
+        .read_record(&mut record)
+        .map_err(|e| csv_error(file, &e))?
+    {
+        if record.iter().all(str::is_empty) {
+            continue;
         }
-        let mut rdr = csv_reader(open()?, format);
-        rdr.headers().map_err(|e| csv_error(file, &e))?;
-        while rdr
-            .read_record(&mut record)
-            .map_err(|e| csv_error(file, &e))?
-        {
-            if record.iter().all(str::is_empty) {
-                continue;
-            }
-            for &c in &pending {
-                if let Building::Codes(codes, seen) = &mut building[c] {
-                    code(codes, seen, &record[c]);
-                }
+        for &c in &pending {
+            if let Building::Codes(codes, seen) = &mut building[c] {
+                push_code(codes, seen, &record[c]);
             }
         }
     }
+    Ok(())
+}
 
+/// The finished feature columns, with a note for each one dropped as
+/// uninformative.
+fn finish_columns(
+    file: &str,
+    headers: &[String],
+    building: Vec<Building>,
+    target_idx: usize,
+) -> Result<(Vec<Column>, Vec<String>)> {
     let mut columns = Vec::new();
     let mut warnings = Vec::new();
     for (c, (name, b)) in headers.iter().zip(building).enumerate() {
@@ -265,28 +338,7 @@ fn parse_stream(
                 }
                 ColumnData::Numeric(v)
             }
-            Building::Codes(codes, seen) => {
-                // Levels sorted, as the one-hot columns are ordered by them.
-                let mut levels: Vec<(String, u32)> = seen.into_iter().collect();
-                levels.sort();
-                let mut remap = vec![0u32; levels.len()];
-                for (i, (_, old)) in levels.iter().enumerate() {
-                    remap[*old as usize] = i as u32;
-                }
-                ColumnData::Categorical {
-                    codes: codes
-                        .into_iter()
-                        .map(|x| {
-                            if x == MISSING_CODE {
-                                x
-                            } else {
-                                remap[x as usize]
-                            }
-                        })
-                        .collect(),
-                    levels: levels.into_iter().map(|(l, _)| l).collect(),
-                }
-            }
+            Building::Codes(codes, seen) => categorical(codes, seen),
             // Cannot happen: the second pass turned every pending column
             // into codes.
             Building::Pending => continue,
@@ -302,20 +354,31 @@ fn parse_stream(
             data,
         });
     }
-    if columns.is_empty() {
-        return Err(Error::Data(format!(
-            "{file}: no usable feature columns besides the target `{target}`; add at least one varying column"
-        )));
+    Ok((columns, warnings))
+}
+
+/// A categorical column with its levels sorted, as the one-hot columns are
+/// ordered by them.
+fn categorical(codes: Vec<u32>, seen: HashMap<String, u32>) -> ColumnData {
+    let mut levels: Vec<(String, u32)> = seen.into_iter().collect();
+    levels.sort();
+    let mut remap = vec![0u32; levels.len()];
+    for (i, (_, old)) in levels.iter().enumerate() {
+        remap[*old as usize] = i as u32;
     }
-    Ok(Table {
-        name: String::new(),
-        source: file.to_string(),
-        sha256,
-        columns,
-        labels,
-        classes,
-        warnings,
-    })
+    ColumnData::Categorical {
+        codes: codes
+            .into_iter()
+            .map(|x| {
+                if x == MISSING_CODE {
+                    x
+                } else {
+                    remap[x as usize]
+                }
+            })
+            .collect(),
+        levels: levels.into_iter().map(|(l, _)| l).collect(),
+    }
 }
 
 fn csv_error(file: &str, e: &csv::Error) -> Error {
@@ -336,98 +399,6 @@ fn csv_error(file: &str, e: &csv::Error) -> Error {
         Some(l) => Error::Data(format!("{file}:{l}: {msg}")),
         None => Error::Data(format!("{file}: {msg}")),
     }
-}
-
-/// Orders labels numerically when they are all numbers, else as text.
-fn sort_labels(labels: &mut [String]) {
-    let numeric: Option<Vec<f64>> = labels.iter().map(|l| l.parse::<f64>().ok()).collect();
-    if numeric.is_some() {
-        labels.sort_by(|a, b| {
-            let (x, y) = (
-                a.parse::<f64>().unwrap_or(0.0),
-                b.parse::<f64>().unwrap_or(0.0),
-            );
-            x.total_cmp(&y).then_with(|| a.cmp(b))
-        });
-    } else {
-        labels.sort();
-    }
-}
-
-fn same_label(label: &str, wanted: &str) -> bool {
-    label == wanted
-        || matches!((label.parse::<f64>(), wanted.parse::<f64>()), (Ok(a), Ok(b)) if a == b)
-        || (label.eq_ignore_ascii_case(wanted)
-            && (wanted.eq_ignore_ascii_case("true") || wanted.eq_ignore_ascii_case("false")))
-}
-
-fn encode_target(
-    file: &str,
-    target: &str,
-    values: &[String],
-    positive: Option<&str>,
-) -> Result<(Vec<usize>, Vec<String>)> {
-    let mut classes: Vec<String> = values.to_vec();
-    classes.sort();
-    classes.dedup();
-    sort_labels(&mut classes);
-    // More than 100 classes, each seen about twice or less on average, is a
-    // continuous value or an identifier, not class labels.
-    if classes.len() > 100 && classes.len() * 2 > values.len() {
-        return Err(Error::Data(format!(
-            "{file}: the target `{target}` has {} distinct values in {} rows, so it looks like a measurement or an identifier rather than class labels; choose a categorical target column (or bin the values into classes first)",
-            classes.len(),
-            values.len()
-        )));
-    }
-    match classes.len() {
-        1 => {
-            return Err(Error::Data(format!(
-                "{file}: the target `{target}` has a single class `{}` ({} rows); a classifier needs at least two classes",
-                classes[0],
-                values.len()
-            )))
-        }
-        2 => {
-            let pos = match positive {
-                Some(p) => classes.iter().position(|c| same_label(c, p)).ok_or_else(|| {
-                    Error::Data(format!(
-                        "{file}: the positive class `{p}` is not a label of `{target}`; its labels are `{}` and `{}`",
-                        classes[0], classes[1]
-                    ))
-                })?,
-                None => classes
-                    .iter()
-                    .position(|c| same_label(c, "1") || same_label(c, "true"))
-                    .filter(|_| {
-                        classes
-                            .iter()
-                            .any(|c| same_label(c, "0") || same_label(c, "false"))
-                    })
-                    .ok_or_else(|| {
-                        Error::Data(format!(
-                            "{file}: the binary target `{target}` has labels `{}` and `{}`; set `positive` to the one whose probability you want",
-                            classes[0], classes[1]
-                        ))
-                    })?,
-            };
-            if pos == 0 {
-                classes.swap(0, 1);
-            }
-        }
-        k => {
-            if let Some(p) = positive {
-                return Err(Error::Data(format!(
-                    "{file}: `positive = \"{p}\"` applies to binary targets, but `{target}` has {k} classes; remove `positive`"
-                )));
-            }
-        }
-    }
-    let labels = values
-        .iter()
-        .map(|v| classes.iter().position(|c| c == v).unwrap_or(0))
-        .collect();
-    Ok((labels, classes))
 }
 
 /// Why a column carries no information, if it does not.
