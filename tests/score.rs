@@ -39,7 +39,7 @@ fn estimated_ece(n: usize, seed: u64) -> f64 {
 
 #[test]
 fn estimated_ece_converges_to_the_known_true_ece() {
-    // The demo's truth is known by construction (src/demo.rs), so the
+    // The demo's truth is known by construction (src/data/demo.rs), so the
     // plug-in ECE on sampled outcomes must approach the true ECE as n
     // grows: its sampling error and upward bias shrink like 1/sqrt(n).
     let truth = demo::true_ece(15);

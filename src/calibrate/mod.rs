@@ -6,6 +6,9 @@
 //! fitting one map per class and renormalising, and the strategy used is
 //! recorded with every result so tables never mix strategies silently. Adding
 //! a method is one new file plus one line in [`METHODS`].
+//!
+//! May import `common` (and `metrics`, which its tests use); never
+//! `learner`, which sits beside it: the two meet only in `common::scores`.
 
 mod beta;
 mod export;

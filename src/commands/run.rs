@@ -11,6 +11,9 @@ use std::fmt::Write as _;
 use std::path::PathBuf;
 
 /// The arguments of `candor run`.
+// The field comments are also the `--help` text, where `<name>` reads as
+// a placeholder, not as HTML.
+#[allow(rustdoc::invalid_html_tags)]
 #[derive(Debug, Clone, clap::Args)]
 pub struct RunArgs {
     /// The experiment manifest (TOML).

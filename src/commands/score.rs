@@ -15,6 +15,9 @@ use std::fmt::Write as _;
 use std::path::PathBuf;
 
 /// The arguments of `candor score`.
+// The field comments are also the `--help` text, where `<name>` reads as
+// a placeholder, not as HTML.
+#[allow(rustdoc::invalid_html_tags)]
 #[derive(Debug, Clone, clap::Args)]
 pub struct ScoreArgs {
     /// CSV of true labels and predicted probabilities.

@@ -1,4 +1,6 @@
 //! Exporters: each renders a [`Table`] in one format, one module per format.
+//!
+//! May import only `common`, where the table lives, so any stage can render.
 
 mod csv;
 mod json;

@@ -4,6 +4,9 @@
 //! shape: a [`Learner`] holds checked parameters, `fit` trains it on one
 //! training split, and the returned [`Model`] scores new rows. Adding a family
 //! is one new file that defines a [`Family`] plus one line in [`FAMILIES`].
+//!
+//! May import `common` and `data` (the encoded design matrix); never
+//! `calibrate`, which sits beside it, nor anything above.
 
 mod adaboost;
 mod forest;

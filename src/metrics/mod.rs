@@ -2,10 +2,12 @@
 //!
 //! Every metric reads a [`Forecasts`]: the class-probability matrix (rows
 //! sum to 1, column `k` is class `k`; for binary tasks column 1 is the
-//! positive class) and the labels. Calibration metrics that are defined for one probability per row
-//! use the positive-class probability for binary tasks and the top-label
-//! confidence for multiclass tasks. Adding a metric is one new file plus one
-//! line in [`METRICS`].
+//! positive class) and the labels. Calibration metrics that are defined
+//! for one probability per row use the positive-class probability for
+//! binary tasks and the top-label confidence for multiclass tasks. Adding a
+//! metric is one new file plus one line in [`METRICS`].
+//!
+//! May import only `common`.
 
 mod accuracy;
 mod auc;

@@ -3,6 +3,10 @@
 //! family and a calibration method. Everything is derived from
 //! `records.jsonl` and `run.json`, so a report can be rebuilt at any time
 //! and gives the same bytes for the same results.
+//!
+//! May import `common`, `metrics`, `export` and `experiment` (the manifest,
+//! store records and summary it reads back); `gate` and `commands` build
+//! on it.
 
 mod diagnosis;
 mod figures;
