@@ -28,7 +28,5 @@ pub mod learner;
 pub mod metrics;
 pub mod report;
 
-pub use common::error::{Error, Result};
-
 /// The version recorded in every output, so results can be traced to code.
 pub const VERSION: &str = env!("CARGO_PKG_VERSION");
