@@ -250,14 +250,7 @@ fn first_pass(
         .map(|_| Building::Numbers(Vec::new(), None))
         .collect();
     let mut targets: Vec<String> = Vec::new();
-    let mut record = csv::StringRecord::new();
-    while rdr
-        .read_record(&mut record)
-        .map_err(|e| csv_error(file, &e))?
-    {
-        if record.iter().all(str::is_empty) {
-            continue;
-        }
+    for_each_row(rdr, file, |record| {
         let line = record.position().map_or(0, |p| p.line());
         if is_missing(&record[target_idx]) {
             return Err(Error::Data(format!(
@@ -270,7 +263,8 @@ fn first_pass(
                 building[c].push(field, line, format);
             }
         }
-    }
+        Ok(())
+    })?;
     if targets.is_empty() {
         return Err(Error::Data(format!(
             "{file}: no data rows after the header; add rows"
@@ -298,18 +292,30 @@ fn second_pass(
     }
     let mut rdr = csv_reader(open()?, format);
     rdr.headers().map_err(|e| csv_error(file, &e))?;
+    for_each_row(&mut rdr, file, |record| {
+        for &c in &pending {
+            if let Building::Codes(codes, seen) = &mut building[c] {
+                push_code(codes, seen, &record[c]);
+            }
+        }
+        Ok(())
+    })
+}
+
+/// Calls `each` on every data row, skipping blank lines, with one record
+/// buffer reused for the whole file.
+fn for_each_row(
+    rdr: &mut csv::Reader<Box<dyn Read + '_>>,
+    file: &str,
+    mut each: impl FnMut(&csv::StringRecord) -> Result<()>,
+) -> Result<()> {
     let mut record = csv::StringRecord::new();
     while rdr
         .read_record(&mut record)
         .map_err(|e| csv_error(file, &e))?
     {
-        if record.iter().all(str::is_empty) {
-            continue;
-        }
-        for &c in &pending {
-            if let Building::Codes(codes, seen) = &mut building[c] {
-                push_code(codes, seen, &record[c]);
-            }
+        if !record.iter().all(str::is_empty) {
+            each(&record)?;
         }
     }
     Ok(())
