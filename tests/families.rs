@@ -184,8 +184,10 @@ fn linear_svm_matches_scikit_learn() {
         let c = case["c"].as_f64().unwrap();
         let mut params = Params::defaults(family.params);
         params.0.insert("c".into(), ParamValue::Float(c));
-        params.0.insert("tol".into(), ParamValue::Float(1e-8));
-        params.0.insert("max_iter".into(), ParamValue::Int(1000));
+        params
+            .0
+            .insert("stop_tolerance".into(), ParamValue::Float(1e-8));
+        params.0.insert("max_steps".into(), ParamValue::Int(1000));
         let model = (family.build)(&params).fit(x.view(), &y, 2, 0).unwrap();
         let margins = model.predict(x.view()).native.unwrap();
         let coef: Vec<f64> = serde_json::from_value(case["coef"].clone()).unwrap();

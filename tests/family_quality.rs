@@ -18,7 +18,7 @@ const PEER: &[(&str, &str, &str, f64, f64)] = &[
     ("breast_cancer_wdbc", "logistic", "logreg", 0.9955, 0.0056),
     (
         "breast_cancer_wdbc",
-        "gaussian_nb",
+        "naive_bayes",
         "nbayes",
         0.9875,
         0.0061,
@@ -45,7 +45,7 @@ const PEER: &[(&str, &str, &str, f64, f64)] = &[
         0.0042,
     ),
     ("spambase", "logistic", "logreg", 0.9716, 0.0039),
-    ("spambase", "gaussian_nb", "nbayes", 0.9447, 0.0049),
+    ("spambase", "naive_bayes", "nbayes", 0.9447, 0.0049),
     ("spambase", "decision_tree", "tree", 0.9423, 0.0040),
     ("spambase", "random_forest", "forest", 0.9873, 0.0060),
     ("spambase", "boosted_stumps", "adaboost", 0.9812, 0.0049),
@@ -75,7 +75,7 @@ bundled = "spambase"
 [[family]]
 name = "logistic"
 [[family]]
-name = "gaussian_nb"
+name = "naive_bayes"
 [[family]]
 name = "decision_tree"
 [[family]]

@@ -117,7 +117,7 @@ fn unknown_family_kind() {
         &[
             "bad.toml:8:8:",
             "unknown family kind `xgboost`",
-            "known kinds: logistic, gaussian_nb",
+            "known kinds: logistic, naive_bayes",
         ],
     );
 }
@@ -129,7 +129,29 @@ fn unknown_family_parameter() {
         &[
             "bad.toml:9:12:",
             "unknown parameter `C`",
-            "allowed: l2, max_iter",
+            "allowed: l2, max_steps",
+        ],
+    );
+}
+
+#[test]
+fn a_renamed_family_kind_names_its_new_name() {
+    expect(
+        &format!("{HEAD}{DATA}[[family]]\nname = \"nb\"\nkind = \"gaussian_nb\"\n"),
+        &[
+            "bad.toml:8:8:",
+            "family kind `gaussian_nb` is now called `naive_bayes`",
+        ],
+    );
+}
+
+#[test]
+fn a_renamed_parameter_names_its_new_name() {
+    expect(
+        &format!("{HEAD}{DATA}{FAMILY}params = {{ max_iter = 50 }}\n"),
+        &[
+            "bad.toml:9:12:",
+            "parameter `max_iter` is now called `max_steps`",
         ],
     );
 }
@@ -137,10 +159,10 @@ fn unknown_family_parameter() {
 #[test]
 fn family_parameter_of_the_wrong_type() {
     expect(
-        &format!("{HEAD}{DATA}{FAMILY}params = {{ max_iter = 2.5 }}\n"),
+        &format!("{HEAD}{DATA}{FAMILY}params = {{ max_steps = 2.5 }}\n"),
         &[
-            "bad.toml:9:23:",
-            "`max_iter` must be an integer, found float",
+            "bad.toml:9:24:",
+            "`max_steps` must be an integer, found float",
         ],
     );
 }

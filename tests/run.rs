@@ -30,7 +30,7 @@ name = "logreg"
 kind = "logistic"
 [[family]]
 name = "nb"
-kind = "gaussian_nb"
+kind = "naive_bayes"
 "#;
 
 fn experiment(dir: &Path, text: &str) -> Experiment {
@@ -225,8 +225,8 @@ path = "d.csv"
 target = "y"
 [[family]]
 name = "nb"
-kind = "gaussian_nb"
-params = { var_smoothing = 0.0 }
+kind = "naive_bayes"
+params = { variance_floor = 0.0 }
 [[family]]
 name = "logreg"
 kind = "logistic"

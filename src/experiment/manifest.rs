@@ -363,6 +363,12 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
             None => (f.name.get_ref().clone(), f.name.span().start),
         };
         let Some(family) = learner::find(&kind) else {
+            if let Some(new) = learner::renamed(learner::RENAMED_KINDS, &kind) {
+                return Err(at.error(
+                    kind_at,
+                    &format!("family kind `{kind}` is now called `{new}`; rename it"),
+                ));
+            }
             return Err(at.error(
                 kind_at,
                 &format!(
@@ -375,6 +381,17 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
         for (key, value) in f.params.unwrap_or_default() {
             let Some(spec) = family.params.iter().find(|s| s.name == key.get_ref()) else {
                 let allowed: Vec<&str> = family.params.iter().map(|s| s.name).collect();
+                if let Some(new) = learner::renamed(learner::RENAMED_PARAMS, key.get_ref())
+                    .filter(|new| allowed.contains(new))
+                {
+                    return Err(at.error(
+                        key.span().start,
+                        &format!(
+                            "parameter `{}` is now called `{new}`; rename it",
+                            key.get_ref()
+                        ),
+                    ));
+                }
                 return Err(at.error(
                     key.span().start,
                     &format!(

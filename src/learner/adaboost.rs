@@ -77,7 +77,7 @@ impl Learner for Boosting {
         let rows = Rows::new(x);
         let growth = Growth {
             max_depth: 1,
-            min_samples_leaf: 1,
+            min_leaf_rows: 1,
             features_per_split: x.ncols(),
         };
         let mut rng = SplitMix64::new(seed);

@@ -58,7 +58,7 @@ pub const BAGGED_TREES: Family = Family {
 };
 
 const MIN_LEAF_5: ParamSpec = ParamSpec {
-    name: "min_samples_leaf",
+    name: "min_leaf_rows",
     kind: ParamKind::Int {
         min: 1,
         max: 100_000,
@@ -68,7 +68,7 @@ const MIN_LEAF_5: ParamSpec = ParamSpec {
 };
 
 const MIN_LEAF_1: ParamSpec = ParamSpec {
-    name: "min_samples_leaf",
+    name: "min_leaf_rows",
     kind: ParamKind::Int {
         min: 1,
         max: 100_000,
@@ -88,7 +88,7 @@ struct Ensemble {
     kind: Kind,
     trees: usize,
     max_depth: usize,
-    min_samples_leaf: usize,
+    min_leaf_rows: usize,
 }
 
 impl Ensemble {
@@ -101,7 +101,7 @@ impl Ensemble {
                 p.int("trees") as usize
             },
             max_depth: p.int("max_depth") as usize,
-            min_samples_leaf: p.int("min_samples_leaf") as usize,
+            min_leaf_rows: p.int("min_leaf_rows") as usize,
         }
     }
 }
@@ -127,7 +127,7 @@ impl Learner for Ensemble {
         let (n, d) = x.dim();
         let growth = Growth {
             max_depth: self.max_depth,
-            min_samples_leaf: self.min_samples_leaf,
+            min_leaf_rows: self.min_leaf_rows,
             features_per_split: match self.kind {
                 Kind::Forest => ((d as f64).sqrt().floor() as usize).max(1),
                 Kind::Single | Kind::Bagging => d,

@@ -47,7 +47,7 @@ pub const FAMILY: Family = Family {
             about: "depth of every tree",
         },
         ParamSpec {
-            name: "min_samples_leaf",
+            name: "min_leaf_rows",
             kind: ParamKind::Int {
                 min: 1,
                 max: 100_000,
@@ -67,7 +67,7 @@ pub const FAMILY: Family = Family {
             rounds: p.int("rounds") as usize,
             learning_rate: p.float("learning_rate"),
             max_depth: p.int("max_depth") as usize,
-            min_samples_leaf: p.int("min_samples_leaf") as usize,
+            min_leaf_rows: p.int("min_leaf_rows") as usize,
             l2: p.float("l2"),
         })
     },
@@ -78,7 +78,7 @@ struct Boosting {
     rounds: usize,
     learning_rate: f64,
     max_depth: usize,
-    min_samples_leaf: usize,
+    min_leaf_rows: usize,
     l2: f64,
 }
 
@@ -142,7 +142,7 @@ impl Boosting {
         let mut nodes = vec![Node::Leaf(0.0)];
         let mut fitted = vec![0.0; n];
         let can_split =
-            |len: usize, depth: usize| depth < self.max_depth && len >= 2 * self.min_samples_leaf;
+            |len: usize, depth: usize| depth < self.max_depth && len >= 2 * self.min_leaf_rows;
         let mut root = vec![(0.0, 0.0, 0u32); total];
         if can_split(n, 0) {
             fill(data, offsets, &rows, g, h, &mut root);
@@ -169,10 +169,10 @@ impl Boosting {
                         lg += bg;
                         lh += bh;
                         lc += bc as usize;
-                        if lc < self.min_samples_leaf {
+                        if lc < self.min_leaf_rows {
                             continue;
                         }
-                        if slice.len() - lc < self.min_samples_leaf {
+                        if slice.len() - lc < self.min_leaf_rows {
                             break;
                         }
                         let (rg, rh) = (sg - lg, sh - lh);

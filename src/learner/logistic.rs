@@ -31,7 +31,7 @@ pub const FAMILY: Family = Family {
             about: "weight of the squared-coefficient penalty (linfa's alpha); larger shrinks more",
         },
         ParamSpec {
-            name: "max_iter",
+            name: "max_steps",
             kind: ParamKind::Int {
                 min: 1,
                 max: 100_000,
@@ -43,7 +43,7 @@ pub const FAMILY: Family = Family {
     build: |p| {
         Box::new(Logistic {
             l2: p.float("l2"),
-            max_iter: p.int("max_iter") as u64,
+            max_steps: p.int("max_steps") as u64,
         })
     },
     revision: 0,
@@ -51,7 +51,7 @@ pub const FAMILY: Family = Family {
 
 struct Logistic {
     l2: f64,
-    max_iter: u64,
+    max_steps: u64,
 }
 
 enum Fitted {
@@ -74,18 +74,18 @@ impl Learner for Logistic {
         _seed: u64,
     ) -> Result<Box<dyn Model>> {
         let fitted = if n_classes == 2 {
-            let (w, b) = newton_binary(x, y, self.l2, self.max_iter)?;
+            let (w, b) = newton_binary(x, y, self.l2, self.max_steps)?;
             Fitted::Binary { w, b }
         } else {
             let data = Dataset::new(x.to_owned(), Array1::from(y.to_vec()));
             let fail = |e: linfa_logistic::error::Error| {
                 Error::Fit(format!(
-                    "logistic regression did not fit: {e}; try a larger `l2` or `max_iter`"
+                    "logistic regression did not fit: {e}; try a larger `l2` or `max_steps`"
                 ))
             };
             let model = MultiLogisticRegression::default()
                 .alpha(self.l2)
-                .max_iterations(self.max_iter)
+                .max_iterations(self.max_steps)
                 .fit(&data)
                 .map_err(fail)?;
             // Columns follow `classes()`; place each at its class index so a
@@ -122,14 +122,14 @@ fn newton_binary(
     x: ArrayView2<'_, f64>,
     y: &[usize],
     l2: f64,
-    max_iter: u64,
+    max_steps: u64,
 ) -> Result<(Array1<f64>, f64)> {
     let (n, d) = x.dim();
     let t: Vec<f64> = y.iter().map(|&v| f64::from(u8::from(v == 1))).collect();
     let mut w = Array1::<f64>::zeros(d);
     let mut b = 0.0;
     let mut f = objective(x, &t, l2, &w, b);
-    for _ in 0..max_iter {
+    for _ in 0..max_steps {
         let z = x.dot(&w) + b;
         let p = z.mapv(crate::common::math::sigmoid);
         let r = Array1::from_iter(p.iter().zip(&t).map(|(pi, ti)| pi - ti));
@@ -184,7 +184,7 @@ fn newton_binary(
         Ok((w, b))
     } else {
         Err(Error::Fit(
-            "logistic regression did not converge; try a larger `l2` or `max_iter`".into(),
+            "logistic regression did not converge; try a larger `l2` or `max_steps`".into(),
         ))
     }
 }

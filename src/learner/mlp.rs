@@ -72,7 +72,7 @@ pub const FAMILY: Family = Family {
             about: "epochs without a better validation loss before stopping",
         },
         ParamSpec {
-            name: "tol",
+            name: "stop_tolerance",
             kind: ParamKind::Float { min: 0.0, max: 1.0 },
             default: ParamValue::Float(1e-4),
             about: "smallest fall in validation log loss that counts as better (scikit-learn's default tolerance)",
@@ -87,7 +87,7 @@ pub const FAMILY: Family = Family {
             batch: p.int("batch") as usize,
             max_epochs: p.int("max_epochs") as usize,
             patience: p.int("patience") as usize,
-            tol: p.float("tol"),
+            stop_tolerance: p.float("stop_tolerance"),
         })
     },
     // 1: our own blocked matrix product and Adam's folded step size.
@@ -102,7 +102,7 @@ struct Mlp {
     batch: usize,
     max_epochs: usize,
     patience: usize,
-    tol: f64,
+    stop_tolerance: f64,
 }
 
 /// Below this many outputs a layer works on its transposed weights, so the
@@ -610,7 +610,7 @@ impl Mlp {
                     "the multilayer perceptron diverged; lower `learning_rate`".into(),
                 ));
             }
-            if v < best.0 - self.tol {
+            if v < best.0 - self.stop_tolerance {
                 best = (v, net.clone());
                 stale = 0;
             } else {
@@ -726,7 +726,7 @@ mod tests {
             batch: 32,
             max_epochs: 5,
             patience: 10,
-            tol: 1e-4,
+            stop_tolerance: 1e-4,
         };
         let net = Net::new(&[d, 20, 9, 2], &mut rng);
         let plain = mlp.train(net.clone(), data, SplitMix64::new(9)).unwrap();

@@ -78,6 +78,23 @@ pub const FAMILIES: &[&Family] = &[
     &mlp::FAMILY,
 ];
 
+/// Family kinds that earlier versions spelled otherwise, with today's name,
+/// so an old manifest fails with the fix rather than a bare "unknown".
+pub const RENAMED_KINDS: &[(&str, &str)] = &[("gaussian_nb", "naive_bayes")];
+
+/// Parameter names that earlier versions spelled otherwise, with today's.
+pub const RENAMED_PARAMS: &[(&str, &str)] = &[
+    ("var_smoothing", "variance_floor"),
+    ("min_samples_leaf", "min_leaf_rows"),
+    ("max_iter", "max_steps"),
+    ("tol", "stop_tolerance"),
+];
+
+/// Today's name for a kind or parameter that was renamed.
+pub fn renamed(table: &[(&str, &'static str)], old: &str) -> Option<&'static str> {
+    table.iter().find(|(o, _)| *o == old).map(|(_, new)| *new)
+}
+
 /// Looks up a family kind by its manifest name.
 pub fn find(kind: &str) -> Option<&'static Family> {
     FAMILIES.iter().copied().find(|f| f.kind == kind)

@@ -14,24 +14,24 @@ use linfa_bayes::{GaussianNb, NaiveBayes};
 use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {
-    kind: "gaussian_nb",
+    kind: "naive_bayes",
     about: "Gaussian naive Bayes; known for over-confident, extreme probabilities",
     params: &[ParamSpec {
-        name: "var_smoothing",
+        name: "variance_floor",
         kind: ParamKind::Float { min: 0.0, max: 1.0 },
         default: ParamValue::Float(1e-9),
         about: "fraction of the largest feature variance added to every variance",
     }],
     build: |p: &Params| {
         Box::new(NaiveBayesLearner {
-            var_smoothing: p.float("var_smoothing"),
+            variance_floor: p.float("variance_floor"),
         })
     },
     revision: 0,
 };
 
 struct NaiveBayesLearner {
-    var_smoothing: f64,
+    variance_floor: f64,
 }
 
 struct Fitted {
@@ -53,11 +53,11 @@ impl Learner for NaiveBayesLearner {
     ) -> Result<Box<dyn Model>> {
         let data = Dataset::new(x.to_owned(), Array1::from(y.to_vec()));
         let model = GaussianNb::params()
-            .var_smoothing(self.var_smoothing)
+            .var_smoothing(self.variance_floor)
             .fit(&data)
             .map_err(|e| {
                 Error::Fit(format!(
-                    "Gaussian naive Bayes did not fit: {e}; try a larger `var_smoothing`"
+                    "Gaussian naive Bayes did not fit: {e}; try a larger `variance_floor`"
                 ))
             })?;
         Ok(Box::new(Fitted { model, n_classes }))

@@ -41,7 +41,7 @@ pub const FAMILY: Family = Family {
             about: "inverse regularisation strength (larger fits the training data harder)",
         },
         ParamSpec {
-            name: "max_iter",
+            name: "max_steps",
             kind: ParamKind::Int {
                 min: 1,
                 max: 100_000,
@@ -50,7 +50,7 @@ pub const FAMILY: Family = Family {
             about: "Newton iterations",
         },
         ParamSpec {
-            name: "tol",
+            name: "stop_tolerance",
             kind: ParamKind::Float {
                 min: 1e-12,
                 max: 1.0,
@@ -62,8 +62,8 @@ pub const FAMILY: Family = Family {
     build: |p| {
         Box::new(Svm {
             c: p.float("c"),
-            max_iter: p.int("max_iter") as usize,
-            tol: p.float("tol"),
+            max_steps: p.int("max_steps") as usize,
+            stop_tolerance: p.float("stop_tolerance"),
         })
     },
     revision: 0,
@@ -71,8 +71,8 @@ pub const FAMILY: Family = Family {
 
 struct Svm {
     c: f64,
-    max_iter: usize,
-    tol: f64,
+    max_steps: usize,
+    stop_tolerance: f64,
 }
 
 /// One binary machine: weights, bias and the training margin range.
@@ -112,7 +112,7 @@ impl Svm {
         let mut w = Array1::<f64>::zeros(d);
         let mut b = 0.0;
         let mut g0 = None;
-        for _ in 0..self.max_iter {
+        for _ in 0..self.max_steps {
             let m = x.dot(&w) + b;
             // Slack of each row inside the margin; zero outside it.
             let slack = Array1::from_iter(m.iter().zip(t).map(|(mi, ti)| (1.0 - ti * mi).max(0.0)));
@@ -122,7 +122,7 @@ impl Svm {
             let gb = b + coef.sum();
             let gnorm = (gw.dot(&gw) + gb * gb).sqrt();
             let g0 = *g0.get_or_insert(gnorm);
-            if gnorm <= self.tol * g0 || gnorm == 0.0 {
+            if gnorm <= self.stop_tolerance * g0 || gnorm == 0.0 {
                 break;
             }
             let inside: Vec<f64> = slack

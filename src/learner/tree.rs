@@ -129,7 +129,7 @@ impl Binned {
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Growth {
     pub max_depth: usize,
-    pub min_samples_leaf: usize,
+    pub min_leaf_rows: usize,
     /// Features sampled, without replacement, for each split.
     pub features_per_split: usize,
 }
@@ -294,7 +294,7 @@ pub(crate) fn grow<W: Weight>(
         });
         let n_rows = end - start;
         let pure = totals.iter().filter(|&&t| t > zero).count() <= 1;
-        let split = if pure || depth >= growth.max_depth || n_rows < 2 * growth.min_samples_leaf {
+        let split = if pure || depth >= growth.max_depth || n_rows < 2 * growth.min_leaf_rows {
             None
         } else {
             best_split(
@@ -376,7 +376,7 @@ fn best_split<W: Weight>(
     let mut best: Option<(f64, usize, usize)> = None;
     let mut consider = |b: usize, left: &[W], left_count: usize, f: usize| {
         let right_count = rows.len() - left_count;
-        if left_count < growth.min_samples_leaf || right_count < growth.min_samples_leaf {
+        if left_count < growth.min_leaf_rows || right_count < growth.min_leaf_rows {
             return;
         }
         let wl: f64 = left.iter().map(|v| v.get()).sum();
@@ -461,7 +461,7 @@ fn best_split<W: Weight>(
                 left[c] += hist[b * k + c];
             }
             left_count += counts[b] as usize;
-            if rows.len() - left_count < growth.min_samples_leaf {
+            if rows.len() - left_count < growth.min_leaf_rows {
                 break;
             }
             consider(b, left, left_count, f);
@@ -489,7 +489,7 @@ mod tests {
         let data = Binned::new(x.view());
         let growth = Growth {
             max_depth: 10,
-            min_samples_leaf: 1,
+            min_leaf_rows: 1,
             features_per_split: 2,
         };
         let tree = grow(&data, &y, &[1.0; 6], 2, growth, &mut SplitMix64::new(1));
@@ -508,7 +508,7 @@ mod tests {
         let data = Binned::new(x.view());
         let growth = Growth {
             max_depth: 0,
-            min_samples_leaf: 1,
+            min_leaf_rows: 1,
             features_per_split: 1,
         };
         let tree = grow(
@@ -538,7 +538,7 @@ mod tests {
         let data = Binned::new(x.view());
         let growth = Growth {
             max_depth: 64,
-            min_samples_leaf: 1,
+            min_leaf_rows: 1,
             features_per_split: 2,
         };
         let a = grow(&data, &y, &counts, 2, growth, &mut SplitMix64::new(9));
