@@ -53,7 +53,8 @@ pub struct LayoutArgs {
     /// The true-label column.
     #[arg(long, default_value = "label")]
     pub label: String,
-    /// A column of segments to report on separately, e.g. a region.
+    /// A column of segments, e.g. a region; `score` also reports on each
+    /// segment separately.
     #[arg(long)]
     pub group: Option<String>,
     /// The positive label of a binary task [default: `1` or `true`].

@@ -14,6 +14,7 @@ pub struct DemoArgs {
     /// Rows to generate.
     #[arg(long, default_value_t = 5000)]
     pub rows: usize,
+    /// Seed of the synthetic scenario; the same seed gives the same files.
     #[arg(long, default_value_t = 7)]
     pub seed: u64,
     /// The model's predictions (late, region, p_late).

@@ -37,12 +37,20 @@ pub fn execute(args: ListArgs, out: &mut Output) -> Result<Status> {
     let text = &mut out.text;
     match args.what {
         ListWhat::Families => {
+            // Columns as wide as the longest kind and parameter name.
+            let kind_width = learner::FAMILIES.iter().map(|f| f.kind.len()).max();
+            let param_width = learner::FAMILIES
+                .iter()
+                .flat_map(|f| f.params)
+                .map(|p| p.name.len())
+                .max();
+            let (kw, pw) = (kind_width.unwrap_or(0), param_width.unwrap_or(0));
             for f in learner::FAMILIES {
-                let _ = writeln!(text, "{:12} {}", f.kind, f.about);
+                let _ = writeln!(text, "{:kw$}  {}", f.kind, f.about);
                 for p in f.params {
                     let _ = writeln!(
                         text,
-                        "    {:14} default {}: {}",
+                        "    {:pw$}  default {}: {}",
                         p.name,
                         param_value(&p.default),
                         p.about

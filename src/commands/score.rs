@@ -42,7 +42,8 @@ pub struct ScoreArgs {
     /// Results folder [default: results/score-<file name>].
     #[arg(long)]
     pub out: Option<PathBuf>,
-    /// Print the predictions' metrics as JSON on standard output.
+    /// Print the predictions' metrics as JSON on standard output (the
+    /// results folder is still written, and named on standard error).
     #[arg(long)]
     pub json: bool,
     /// Fit this method on every row and save it (with --save).
@@ -87,6 +88,12 @@ pub fn execute(args: ScoreArgs, out: &mut Output) -> Result<Status> {
         out.note(format!("saved the {method} map to {}", file.display()));
     }
     if args.json {
+        // Standard output holds the JSON alone; say where the rest went.
+        out.note(format!(
+            "results in {}; report: {}",
+            out_dir.display(),
+            html.display()
+        ));
         let v = score::metrics_json(&scored.predictions, args.bins);
         let _ = writeln!(
             out.text,

@@ -88,7 +88,7 @@ mod tests {
         // Reference values for seed 1234567 of the published SplitMix64
         // reference code (splitmix64.c, Vigna 2015). The values are recalled
         // from memory and were confirmed by running that code's constants in
-        // a short Python transcription.
+        // a short Python port.
         let mut g = SplitMix64::new(1_234_567);
         assert_eq!(g.next_u64(), 6_457_827_717_110_365_317);
         assert_eq!(g.next_u64(), 3_203_168_211_198_807_973);

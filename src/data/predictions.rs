@@ -163,6 +163,7 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
     };
     let mut proba = Array2::zeros((rows.len(), k));
     let mut bad_value = Vec::new();
+    let mut bad_values = 0;
     let mut first_bad: Option<(String, String)> = None;
     let mut bad_sum = Vec::new();
     for (i, row) in rows.iter().enumerate() {
@@ -174,7 +175,11 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
                     sum += p;
                 }
                 _ => {
-                    bad_value.push(i + 2);
+                    // Each line once, however many of its values are bad.
+                    if bad_value.last() != Some(&(i + 2)) {
+                        bad_value.push(i + 2);
+                    }
+                    bad_values += 1;
                     first_bad.get_or_insert((header[c].clone(), row[c].clone()));
                 }
             }
@@ -201,7 +206,7 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
     if !bad_value.is_empty() {
         let (column, value) = first_bad.unwrap_or_default();
         return Err(Error::Data(format!(
-            "{file}: probabilities must be numbers in [0, 1], but column `{column}` holds `{value}` on line {} (lines {}); name the probability columns with --columns, or a segment column with --group",
+            "{file}: probabilities must be numbers in [0, 1], but column `{column}` holds `{value}` on line {} ({bad_values} bad values on lines {}); name the probability columns with --columns, or a segment column with --group",
             bad_value[0],
             lines(&bad_value)
         )));
@@ -332,4 +337,27 @@ fn map_columns(file: &str, names: &[&str], classes: &[String]) -> Result<Vec<usi
             })
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_line_with_several_bad_values_is_listed_once_with_the_count() {
+        let dir = tempfile::tempdir().expect("a temporary folder");
+        let path = dir.path().join("p.csv");
+        std::fs::write(&path, "label,p_a,p_b\na,x,y\nb,0.5,0.5\na,z,0.5\n").expect("written");
+        let layout = Layout {
+            label: Some("label".into()),
+            group: None,
+            positive: None,
+            columns: None,
+            tolerance: 1e-3,
+        };
+        let err = read(&path, &layout, None)
+            .expect_err("bad values")
+            .to_string();
+        assert!(err.contains("(3 bad values on lines 2, 4)"), "{err}");
+    }
 }

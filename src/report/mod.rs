@@ -61,7 +61,7 @@ impl Results {
         let read = |path: &Path| {
             std::fs::read_to_string(path).map_err(|e| {
                 Error::Io(format!(
-                    "{}: cannot read: {e}; point `candor report` at a folder that `candor run` finished",
+                    "{}: cannot read: {e}; give a results folder that `candor run` or `candor score` finished",
                     path.display()
                 ))
             })
