@@ -38,13 +38,17 @@ pub fn execute(args: ListArgs, out: &mut Output) -> Result<Status> {
     match args.what {
         ListWhat::Families => {
             // Columns as wide as the longest kind and parameter name.
-            let kind_width = learner::FAMILIES.iter().map(|f| f.kind.len()).max();
-            let param_width = learner::FAMILIES
+            let kw = learner::FAMILIES
+                .iter()
+                .map(|f| f.kind.len())
+                .max()
+                .unwrap_or(0);
+            let pw = learner::FAMILIES
                 .iter()
                 .flat_map(|f| f.params)
                 .map(|p| p.name.len())
-                .max();
-            let (kw, pw) = (kind_width.unwrap_or(0), param_width.unwrap_or(0));
+                .max()
+                .unwrap_or(0);
             for f in learner::FAMILIES {
                 let _ = writeln!(text, "{:kw$}  {}", f.kind, f.about);
                 for p in f.params {
