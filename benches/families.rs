@@ -2,7 +2,7 @@
 //! and 20k rows (german_credit, spambase, magic_gamma): fit on 80% of
 //! the rows, predict the other 20%, best of 3. Run with
 //! `cargo bench --bench families [FAMILY...]`; the README quotes the figures, and
-//! scripts/bench-peer.sh compares whole grids with scikit-learn.
+//! scripts/bench-sklearn.sh compares whole grids with scikit-learn.
 
 use candor::common::params::Params;
 use candor::data::catalog::Catalog;
