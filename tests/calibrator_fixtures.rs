@@ -72,8 +72,8 @@ fn isotonic_matches_scikit_learn_with_clipping() {
 fn platt_reaches_scikit_learns_optimum() {
     // scikit-learn's _sigmoid_calibration minimises the same smoothed
     // objective with L-BFGS, stopping at a gradient tolerance, so its A and B
-    // agree with Lin-Lin-Weng's Newton method only to about 1e-5 (CV-08 in
-    // shared/reference/METHODS.md notes 4e-6 on the LibSVM case). What must
+    // agree with Lin-Lin-Weng's Newton method only to about 1e-5 (platt-llw in
+    // docs/methods.md notes 4e-6 on the LibSVM case). What must
     // hold exactly: our objective is never worse than theirs.
     for c in cases() {
         let scores = floats(&c["scores"]);

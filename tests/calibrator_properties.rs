@@ -1,5 +1,5 @@
-//! Properties every calibration method must have (CV-22 in
-//! shared/reference/METHODS.md), degenerate calibration sets, and the
+//! Properties every calibration method must have (properties in
+//! docs/methods.md), degenerate calibration sets, and the
 //! Platt-versus-isotonic behaviour by calibration-set size reported by
 //! Niculescu-Mizil & Caruana (2005).
 
@@ -199,7 +199,7 @@ fn platt_beats_isotonic_on_small_calibration_sets_and_isotonic_catches_up() {
     // Scores whose reliability curve is a sigmoid distortion of the truth.
     // Niculescu-Mizil & Caruana (ICML 2005) report Platt better with small
     // calibration sets and isotonic as good or better from roughly a few
-    // hundred to 1000 samples (CV-20 in shared/reference/METHODS.md); we
+    // hundred to 1000 samples (platt-vs-isotonic-size in docs/methods.md); we
     // assert the direction: Platt's advantage is clear at 40 samples and
     // shrinks to near nothing at 5000.
     let mut rng = SplitMix64::new(4);

@@ -63,7 +63,7 @@ fn check_reports_the_datasets_and_cell_count() {
     let o = candor(&["check", "experiments/quickstart.toml"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let text = String::from_utf8_lossy(&o.stdout);
-    // Class counts as published in shared/datasets/catalog.json.
+    // Class counts as published with the datasets (datasets/catalog.json).
     assert!(
         text.contains(
             "spambase: 4601 rows, 57 feature columns, classes {nonspam: 2788, spam: 1813}"

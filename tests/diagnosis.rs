@@ -1,8 +1,8 @@
 //! The diagnosis on synthetic sources whose miscalibration is known by
 //! construction: the true log-odds LP ~ N(0, 1.5^2), outcomes y ~
 //! Bernoulli(sigmoid(LP)), and forecasts sigmoid(c LP + s). A factor c > 1
-//! makes the forecasts too extreme (calibration slope 1/c < 1, as in CV-19
-//! of shared/reference/METHODS.md), c < 1 too moderate, and a shift s moves
+//! makes the forecasts too extreme (calibration slope 1/c < 1, as in slope-overfit
+//! of docs/methods.md), c < 1 too moderate, and a shift s moves
 //! them up or down.
 
 use candor::common::rng::SplitMix64;

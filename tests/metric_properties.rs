@@ -1,5 +1,5 @@
-//! Properties every metric must have on any input (CV-22 in
-//! shared/reference/METHODS.md lists them), checked on many random
+//! Properties every metric must have on any input (properties in
+//! docs/methods.md lists them), checked on many random
 //! forecasters.
 
 use candor::common::rng::SplitMix64;
@@ -70,7 +70,7 @@ fn ece_lies_in_the_unit_interval_and_mce_bounds_it() {
 fn a_calibrated_source_has_debiased_error_near_zero_but_positive_plug_in_ece() {
     // y ~ Bernoulli(p) exactly: the true calibration error is 0. Over many
     // samples the debiased squared error averages about 0, while the plug-in
-    // ECE is positive in every sample (CV-22 (d)).
+    // ECE is positive in every sample (properties (d)).
     let mut rng = SplitMix64::new(2);
     let o = MetricOptions {
         bins: 10,
@@ -111,7 +111,7 @@ fn auc_is_invariant_under_strictly_increasing_maps() {
 
 #[test]
 fn multiclass_brier_lies_in_zero_to_two() {
-    // CV-22 (g).
+    // properties (g).
     let mut rng = SplitMix64::new(4);
     for _ in 0..200 {
         let n = 30;

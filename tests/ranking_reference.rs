@@ -1,13 +1,13 @@
 //! The ranking statistics against Demšar (2006), "Statistical comparisons
 //! of classifiers over multiple data sets", JMLR 7:1-30, and the check
-//! values in shared/reference/METHODS.md (CV-14 to CV-18), which were
-//! recomputed there with scipy.stats.
+//! values critical-values, studentized-range, friedman-small and
+//! demsar-friedman in docs/methods.md, recomputed with scipy.stats.
 
 use candor::common::stats::{bonferroni_dunn_q, critical_difference, friedman, nemenyi_q, ranks};
 
 #[test]
 fn nemenyi_and_bonferroni_dunn_critical_values() {
-    // CV-14: q_0.05, q_0.10 (Nemenyi) and the Bonferroni-Dunn values for
+    // critical-values: q_0.05, q_0.10 (Nemenyi) and the Bonferroni-Dunn values for
     // k = 2..10, computed as scipy.stats.studentized_range.ppf(1 - a, k,
     // inf) / sqrt(2) and the normal quantile; they match Demšar's Table 5
     // to the third decimal. Tolerance 1e-3, as the reference asks.
@@ -42,13 +42,13 @@ fn nemenyi_and_bonferroni_dunn_critical_values() {
 
 #[test]
 fn studentized_range_quantile() {
-    // CV-18: q_0.05(k = 3, df = inf) = 3.3145, so 3.3145 / sqrt 2 = 2.3437.
+    // studentized-range: q_0.05(k = 3, df = inf) = 3.3145, so 3.3145 / sqrt 2 = 2.3437.
     assert!((nemenyi_q(3, 0.05) - 2.3437).abs() < 1e-4);
 }
 
 #[test]
 fn friedman_on_a_published_rank_table() {
-    // CV-15: 9 methods on 2 data sets with ranks (1, 8, 6, 4, 7, 2, 5, 3, 9)
+    // friedman-small: 9 methods on 2 data sets with ranks (1, 8, 6, 4, 7, 2, 5, 3, 9)
     // and (1, 6, 3, 9, 7, 2, 8, 4, 5), as printed on a statistics Q&A page
     // with R's output: chi-square 11.733 (df 8, p = 0.1635); Iman-Davenport
     // F = 2.75 (df 8, 8), p = 0.08697. Our ranks() reproduces the ranks
@@ -68,7 +68,7 @@ fn friedman_on_a_published_rank_table() {
 
 #[test]
 fn demsar_friedman_worked_example() {
-    // CV-16: four C4.5 variants on 14 data sets, average ranks exactly
+    // demsar-friedman: four C4.5 variants on 14 data sets, average ranks exactly
     // 44/14, 28/14, 40.5/14 and 27.5/14 (printed 3.143, 2.000, 2.893,
     // 1.964). Demšar: chi-square_F = 9.28, F_F = 3.69 against
     // F(3, 39) = 2.85; CD_0.05 = 1.25, CD_0.10 = 1.12 (Nemenyi) and

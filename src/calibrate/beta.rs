@@ -140,7 +140,7 @@ mod tests {
 
     #[test]
     fn the_family_contains_the_identity() {
-        // CV-22 (c) in shared/reference/METHODS.md.
+        // properties (c) in docs/methods.md.
         let m = BetaMap {
             a: 1.0,
             b: 1.0,

@@ -89,7 +89,7 @@ mod tests {
     #[test]
     fn equal_frequency_bins_keep_ties_and_use_midpoints() {
         // Scores .1 .1 .4 .4 .7 .7 .7 .9 with labels 0 0 0 1 0 1 1 1 (the
-        // CV-01 toy data of shared/reference/METHODS.md) in 4 bins: the tie
+        // toy forecaster of docs/methods.md) in 4 bins: the tie
         // at .7 stays whole, so the bins are {.1,.1} {.4,.4} {.7,.7,.7} {.9}
         // with rates 0, 1/2, 2/3, 1 and boundaries .25, .55, .8.
         let s = [0.1, 0.1, 0.4, 0.4, 0.7, 0.7, 0.7, 0.9];

@@ -123,7 +123,7 @@ mod tests {
 
     #[test]
     fn pav_on_the_reference_sequence() {
-        // CV-09b in shared/reference/METHODS.md.
+        // pav in docs/methods.md.
         let x = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0];
         let m = IsotonicMap::fit(&x, &[1.0, 3.0, 2.0, 4.0, 3.0, 5.0]);
         assert!(close(&m.y, &[1.0, 2.5, 2.5, 3.5, 3.5, 5.0]));
@@ -131,7 +131,7 @@ mod tests {
 
     #[test]
     fn ties_are_pooled_with_summed_weights() {
-        // CV-09 in shared/reference/METHODS.md (scikit-learn PR #9484):
+        // isotonic-ties in docs/methods.md (scikit-learn PR #9484):
         // thresholds (0, 1, 2, 3) with values (0, 1/3, 1/3, 1).
         let m = IsotonicMap::fit(&[0.0, 1.0, 1.0, 2.0, 3.0], &[0.0, 0.0, 1.0, 0.0, 1.0]);
         assert!(close(&m.x, &[0.0, 1.0, 2.0, 3.0]));
@@ -140,14 +140,14 @@ mod tests {
 
     #[test]
     fn duplicate_minimum_predicts_a_number() {
-        // CV-09c in shared/reference/METHODS.md (scikit-learn PR #3995).
+        // isotonic-duplicate-min in docs/methods.md (scikit-learn PR #3995).
         let m = IsotonicMap::fit(&[0.0, 0.0, 1.0], &[0.0, 0.0, 1.0]);
         assert_eq!(m.apply(0.0), 0.0);
     }
 
     #[test]
     fn interpolates_between_thresholds_and_clips_outside() {
-        // CV-10 in shared/reference/METHODS.md: fitted (0, .5, .5, 1);
+        // isotonic-interpolation in docs/methods.md: fitted (0, .5, .5, 1);
         // scikit-learn's linear interpolation gives 0.25, 0.75, 1.0.
         let m = IsotonicMap::fit(&[0.1, 0.3, 0.5, 0.7], &[0.0, 1.0, 0.0, 1.0]);
         assert!(close(&m.y, &[0.0, 0.5, 0.5, 1.0]));

@@ -144,7 +144,7 @@ mod tests {
     #[test]
     #[allow(clippy::excessive_precision)] // the published digits, verbatim
     fn matches_the_libsvm_port_values() {
-        // CV-08 in shared/reference/METHODS.md: A and B from scikit-learn's
+        // platt-llw in docs/methods.md: A and B from scikit-learn's
         // tests/test_calibration.py, computed there with a Python port of
         // LibSVM's C++ implementation of this algorithm.
         let m = PlattMap::fit(&[5.0, -4.0, 1.0], &[true, false, false]);

@@ -165,7 +165,7 @@ mod tests {
 
     #[test]
     fn analytic_optimum_and_calibrated_confidence() {
-        // CV-11 in shared/reference/METHODS.md: K = 3, logit m = 2 on one
+        // temperature-analytic in docs/methods.md: K = 3, logit m = 2 on one
         // class and 0 elsewhere, top-label accuracy 0.75 gives
         // T* = 2 / ln 6 = 1.116221, and confidence 0.78699 before and 0.75
         // after.
@@ -191,7 +191,7 @@ mod tests {
         let fitted = Temperature.fit(&scores, &labels, 3).unwrap();
         let p = fitted.apply(&scores);
         assert!((p[[0, 0]] - 0.75).abs() < 1e-9);
-        // Argmax, hence accuracy, is unchanged (CV-22 (a)).
+        // Argmax, hence accuracy, is unchanged (properties (a)).
         let before = accuracy(&Forecasts::new(scores.proba.view(), &labels));
         let after = accuracy(&Forecasts::new(p.view(), &labels));
         assert_eq!(before, after);

@@ -123,7 +123,7 @@ mod tests {
 
     #[test]
     fn reference_sheet_toy_example() {
-        // CV-12 in shared/reference/METHODS.md: calibration scores
+        // venn-abers-toy in docs/methods.md: calibration scores
         // (.1 .2 .3 .4 .6 .7 .8 .9), labels (0 0 1 0 1 0 1 1).
         // s = 0.5: (p0, p1) = (1/3, 2/3), merged 0.5.
         // s = 0.95: (2/3, 1), merged 0.75.

@@ -73,7 +73,7 @@ mod tests {
 
     #[test]
     fn renormalisation_matches_the_reference_sheet() {
-        // CV-13 in shared/reference/METHODS.md (scikit-learn's one-vs-rest
+        // ovr-renormalise in docs/methods.md (scikit-learn's one-vs-rest
         // normalisation logic): (0.5, 0.3, 0.4) -> (0.41667, 0.25, 0.33333).
         let mut p = array![[0.5, 0.3, 0.4], [0.0, 0.0, 0.0]];
         renormalise(&mut p);

@@ -161,7 +161,7 @@ mod tests {
 
     #[test]
     fn range_cdf_matches_known_quantile() {
-        // CV-18 in shared/reference/METHODS.md: q_0.05(k = 3, df = inf) =
+        // studentized-range in docs/methods.md: q_0.05(k = 3, df = inf) =
         // 3.3145 (scipy.stats.studentized_range).
         assert!((range_cdf(3.3145, 3) - 0.95).abs() < 1e-4);
     }

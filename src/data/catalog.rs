@@ -124,8 +124,8 @@ mod tests {
 
     #[test]
     fn every_bundled_file_matches_its_published_checksum() {
-        // The checksums come from shared/datasets/SHA256SUMS, published with
-        // the open datasets; the catalog must agree with that file.
+        // datasets/SHA256SUMS holds the checksums published with the open
+        // datasets; the catalog must agree with that file.
         let cat = bundled();
         let sums = std::fs::read_to_string(cat.dir.join("SHA256SUMS")).unwrap();
         assert_eq!(cat.entries.len(), sums.lines().count());

@@ -62,16 +62,17 @@ pub fn auc(fc: &Forecasts<'_>) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::cv01;
+    use crate::metrics::testing::toy_forecaster;
     use crate::metrics::Forecasts;
 
     #[test]
     fn toy_forecaster_counts_ties_half() {
-        // Pairs (positive, negative) on the CV-01 data: positives .4 .7 .7 .9,
-        // negatives .1 .1 .4 .7. Wins: .4 beats 2 and ties 1 (2.5); each .7
-        // beats 3 and ties 1 (3.5 twice); .9 beats 4: 13.5 of 16 = 0.84375,
+        // Pairs (positive, negative) on the toy forecaster of
+        // docs/methods.md: positives .4 .7 .7 .9, negatives .1 .1 .4 .7.
+        // Wins: .4 beats 2 and ties 1 (2.5); each .7 beats 3 and ties 1
+        // (3.5 twice); .9 beats 4: 13.5 of 16 = 0.84375,
         // which scikit-learn's roc_auc_score also gives.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         assert!((auc(&Forecasts::new(p.view(), &y)) - 0.84375).abs() < 1e-15);
     }
 

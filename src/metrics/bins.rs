@@ -153,7 +153,7 @@ mod tests {
 
     #[test]
     fn ties_stay_in_one_equal_mass_bin_whatever_the_row_order() {
-        // CV-03 in shared/reference/METHODS.md: rank cutting into 4 bins
+        // toy-mass4 in docs/methods.md: rank cutting into 4 bins
         // splits the tie at 0.7 across bins 3 and 4; here it stays whole.
         let f = [0.1, 0.1, 0.4, 0.4, 0.7, 0.7, 0.7, 0.9];
         let o = [0.0, 0.0, 0.0, 1.0, 0.0, 1.0, 1.0, 1.0];

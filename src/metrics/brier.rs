@@ -86,16 +86,16 @@ pub fn murphy(fc: &Forecasts<'_>, opts: &MetricOptions) -> Murphy {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::{binary, cv01, cv07};
+    use crate::metrics::testing::{binary, multiclass_toy, toy_forecaster};
     use crate::metrics::Forecasts;
 
     #[test]
     fn toy_forecaster_and_its_exact_decomposition() {
-        // CV-01 and CV-01a in shared/reference/METHODS.md: BS 0.1525
+        // toy-brier and toy-murphy in docs/methods.md: BS 0.1525
         // (scikit-learn's brier_score_loss agrees); REL 0.0066667,
         // RES 0.1041667, UNC 0.25, and REL - RES + UNC = BS exactly because
         // each bin holds one forecast value.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         let bs = brier(&Forecasts::new(p.view(), &y));
         assert!((bs - 0.1525).abs() < 1e-12);
         let m = murphy(
@@ -113,7 +113,7 @@ mod tests {
 
     #[test]
     fn binned_decomposition_is_not_exact_for_spread_forecasts() {
-        // CV-02 in shared/reference/METHODS.md: p = (0.05, 0.15), y = (0, 1)
+        // murphy-binned in docs/methods.md: p = (0.05, 0.15), y = (0, 1)
         // in one bin gives BS 0.3625 but REL - RES + UNC = 0.41.
         let p = binary(&[0.05, 0.15]);
         let y = [0, 1];
@@ -130,9 +130,9 @@ mod tests {
 
     #[test]
     fn multiclass_sums_over_classes() {
-        // CV-07 in shared/reference/METHODS.md: 0.57, equal to
+        // multiclass-toy in docs/methods.md: 0.57, equal to
         // scikit-learn's multiclass default.
-        let (p, y) = cv07();
+        let (p, y) = multiclass_toy();
         assert!((brier(&Forecasts::new(p.view(), &y)) - 0.57).abs() < 1e-12);
     }
 }

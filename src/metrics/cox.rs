@@ -45,15 +45,15 @@ pub fn calibration_intercept(fc: &Forecasts<'_>) -> f64 {
 mod tests {
     use super::*;
     use crate::common::rng::SplitMix64;
-    use crate::metrics::testing::{binary, cv01};
+    use crate::metrics::testing::{binary, toy_forecaster};
     use crate::metrics::Forecasts;
 
     #[test]
     fn toy_forecaster_matches_statsmodels() {
-        // CV-06 in shared/reference/METHODS.md (statsmodels GLM binomial):
+        // cox-toy in docs/methods.md (statsmodels GLM binomial):
         // slope 1.34170 with that model's intercept -0.04790; calibration
         // in the large exactly 0 because mean p = mean y = 0.5.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         let fc = Forecasts::new(p.view(), &y);
         let (f, o) = fc.reduced();
         let x = logits(f);
@@ -66,7 +66,7 @@ mod tests {
 
     #[test]
     fn an_over_fitted_model_has_slope_one_over_its_inflation() {
-        // CV-19 in shared/reference/METHODS.md: true logit LP ~ N(0, 1.5^2),
+        // slope-overfit in docs/methods.md: true logit LP ~ N(0, 1.5^2),
         // predicted logit 1.3 LP; the slope tends to 1/1.3 = 0.7692 (the
         // reference's simulations with n = 1e6: 0.76888 and 0.76851, each
         // +-0.00168). Our own simulation must land within about 3.5 SE.

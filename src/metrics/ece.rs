@@ -54,7 +54,7 @@ pub fn ece_classwise(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::{binary, cv01, cv07};
+    use crate::metrics::testing::{binary, multiclass_toy, toy_forecaster};
     use crate::metrics::Forecasts;
 
     fn opts(bins: usize) -> MetricOptions {
@@ -66,11 +66,11 @@ mod tests {
 
     #[test]
     fn toy_forecaster_ece_and_mce() {
-        // CV-01b and CV-01c in shared/reference/METHODS.md (toy forecaster
+        // toy-ece10 and toy-ece2 in docs/methods.md (toy forecaster
         // from Flach & Perello-Nieto's "Classifier Calibration" slides):
         // ECE 0.075 and MCE 0.10 with 10 equal-width bins; 0 with 2 bins,
         // equal-width or equal-mass.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         assert!((ece(&Forecasts::new(p.view(), &y), &opts(10)) - 0.075).abs() < 1e-12);
         assert!((mce(&Forecasts::new(p.view(), &y), &opts(10)) - 0.10).abs() < 1e-12);
         assert!(ece(&Forecasts::new(p.view(), &y), &opts(2)).abs() < 1e-12);
@@ -79,20 +79,20 @@ mod tests {
 
     #[test]
     fn equal_mass_ece_keeps_ties_together() {
-        // CV-01d in shared/reference/METHODS.md gives 0.15 for 4 bins cut by
+        // toy-mass4 in docs/methods.md gives 0.15 for 4 bins cut by
         // rank with numpy.array_split, which splits the tie at 0.7 into
         // {.7, .7} and {.7, .9}. Keeping the tie whole gives bins
         // {.1,.1} {.4,.4} {.7,.7,.7} {.9}: gaps .1, .1, 1/30, .1 with
         // weights 2, 2, 3, 1 (of 8), so ECE = 0.075.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         assert!((ece_mass(&Forecasts::new(p.view(), &y), &opts(4)) - 0.075).abs() < 1e-12);
     }
 
     #[test]
     fn multiclass_top_label_and_classwise() {
-        // CV-07 in shared/reference/METHODS.md: top-label ECE 0.05,
+        // multiclass-toy in docs/methods.md: top-label ECE 0.05,
         // class-wise ECE mean(0.15, 0.10, 0.15) = 0.13333.
-        let (p, y) = cv07();
+        let (p, y) = multiclass_toy();
         assert!((ece(&Forecasts::new(p.view(), &y), &opts(10)) - 0.05).abs() < 1e-12);
         let cw = ece_classwise(&Forecasts::new(p.view(), &y), &opts(10));
         assert!((cw - 0.4 / 3.0).abs() < 1e-12, "{cw}");

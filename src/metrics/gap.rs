@@ -19,7 +19,7 @@ pub fn calibration_gap(fc: &Forecasts<'_>) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::{binary, cv07};
+    use crate::metrics::testing::{binary, multiclass_toy};
     use crate::metrics::Forecasts;
 
     #[test]
@@ -27,8 +27,8 @@ mod tests {
         // Confidence 0.9 on every row, right half the time: +0.4.
         let p = binary(&[0.9, 0.9, 0.1, 0.1]);
         assert!((calibration_gap(&Forecasts::new(p.view(), &[1, 0, 0, 1])) - 0.4).abs() < 1e-12);
-        // CV-07 data: confidences .6 .6 .5 .5 (mean .55), accuracy 2/4.
-        let (p, y) = cv07();
+        // multiclass-toy data: confidences .6 .6 .5 .5 (mean .55), accuracy 2/4.
+        let (p, y) = multiclass_toy();
         assert!((calibration_gap(&Forecasts::new(p.view(), &y)) - 0.05).abs() < 1e-12);
     }
 }

@@ -50,15 +50,15 @@ pub fn hosmer_lemeshow_p(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::cv01;
+    use crate::metrics::testing::toy_forecaster;
     use crate::metrics::Forecasts;
 
     #[test]
     fn toy_forecaster_with_one_group_per_forecast_value() {
-        // CV-05b in shared/reference/METHODS.md: groups = the 4 distinct
+        // hosmer-lemeshow-toy in docs/methods.md: groups = the 4 distinct
         // forecasts, C = 0.43254, p = 0.8055 on 2 degrees of freedom. Four
         // equal-mass groups with ties kept whole are exactly those groups.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         let o = MetricOptions {
             hl_groups: 4,
             ..Default::default()

@@ -44,7 +44,7 @@ pub fn ce2_debiased(fc: &Forecasts<'_>, opts: &MetricOptions) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::cv01;
+    use crate::metrics::testing::toy_forecaster;
     use crate::metrics::Forecasts;
 
     fn opts(bins: usize) -> MetricOptions {
@@ -56,15 +56,16 @@ mod tests {
 
     #[test]
     fn toy_forecaster_plug_in_and_debiased() {
-        // CV-04 in shared/reference/METHODS.md: with 2 equal-mass bins the
+        // kumar-debiased in docs/methods.md: with 2 equal-mass bins the
         // plug-in value is 0 and the debiased one -0.0625.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         assert!(ce2(&Forecasts::new(p.view(), &y), &opts(2)).abs() < 1e-15);
         assert!((ce2_debiased(&Forecasts::new(p.view(), &y), &opts(2)) - -0.0625).abs() < 1e-12);
-        // CV-04's 4-bin values (0.025, -0.100) cut ranks with array_split,
-        // splitting the tie at 0.7. Keeping ties whole leaves 0.9 alone in
-        // its bin: the plug-in value is (2(.01) + 2(.01) + 3/900 + .01) / 8
-        // and the debiased one is undefined, like CV-04's per-value bins.
+        // With 4 bins, a rank split (numpy.array_split) splits the tie at
+        // 0.7 and gives 0.025 and -0.100. Keeping ties whole leaves 0.9
+        // alone in its bin: the plug-in value is
+        // (2(.01) + 2(.01) + 3/900 + .01) / 8 and the debiased one is
+        // undefined, as the same check value says.
         let plug = ce2(&Forecasts::new(p.view(), &y), &opts(4));
         assert!((plug - (0.05 + 3.0 / 900.0) / 8.0).abs() < 1e-12, "{plug}");
         assert!(ce2_debiased(&Forecasts::new(p.view(), &y), &opts(4)).is_nan());

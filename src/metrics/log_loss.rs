@@ -27,8 +27,8 @@ mod tests {
     use ndarray::{array, Array2};
 
     #[test]
-    fn toy_forecaster() {
-        // CV-01e in shared/reference/METHODS.md: 0.4575650744 (scikit-learn's
+    fn on_the_toy_forecaster() {
+        // toy-logloss in docs/methods.md: 0.4575650744 (scikit-learn's
         // log_loss agrees).
         let p = [0.1, 0.1, 0.4, 0.4, 0.7, 0.7, 0.7, 0.9];
         let m = Array2::from_shape_fn((8, 2), |(i, j)| if j == 1 { p[i] } else { 1.0 - p[i] });
@@ -38,7 +38,7 @@ mod tests {
 
     #[test]
     fn multiclass_and_clipping() {
-        // CV-07 in shared/reference/METHODS.md: 0.90298.
+        // multiclass-toy in docs/methods.md: 0.90298.
         let p = array![
             [0.6, 0.3, 0.1],
             [0.6, 0.3, 0.1],

@@ -69,7 +69,7 @@ pub fn reliability(fc: &Forecasts<'_>, bins: usize) -> Vec<ReliabilityBin> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::cv01;
+    use crate::metrics::testing::toy_forecaster;
     use crate::metrics::Forecasts;
 
     #[test]
@@ -89,10 +89,10 @@ mod tests {
 
     #[test]
     fn toy_forecaster_matches_the_calibration_curve() {
-        // CV-01f in shared/reference/METHODS.md: scikit-learn's
+        // toy-curve in docs/methods.md: scikit-learn's
         // calibration_curve(n_bins=10) gives prob_true (0, 0.5, 0.6667, 1)
         // and prob_pred (0.1, 0.4, 0.7, 0.9), empty bins dropped.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         let r = reliability(&Forecasts::new(p.view(), &y), 10);
         let observed: Vec<f64> = r.iter().map(|b| b.observed).collect();
         let forecast: Vec<f64> = r.iter().map(|b| b.mean_forecast).collect();

@@ -45,14 +45,14 @@ pub fn two_sided_normal(z: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::metrics::testing::cv01;
+    use crate::metrics::testing::toy_forecaster;
     use crate::metrics::Forecasts;
 
     #[test]
-    fn toy_forecaster() {
-        // CV-05 in shared/reference/METHODS.md: z = -0.29569, two-sided
+    fn on_the_toy_forecaster() {
+        // spiegelhalter-toy in docs/methods.md: z = -0.29569, two-sided
         // p = 0.76747.
-        let (p, y) = cv01();
+        let (p, y) = toy_forecaster();
         assert!((spiegelhalter_z(&Forecasts::new(p.view(), &y)) - -0.29569).abs() < 5e-6);
         assert!((spiegelhalter_p(&Forecasts::new(p.view(), &y)) - 0.76747).abs() < 5e-6);
     }

@@ -10,17 +10,17 @@ pub fn binary(p: &[f64]) -> Array2<f64> {
     )
 }
 
-/// The toy forecaster of CV-01 in shared/reference/METHODS.md, from Flach &
+/// The toy forecaster of docs/methods.md (its toy-* check values), from Flach &
 /// Perello-Nieto's "Classifier Calibration" slides.
-pub fn cv01() -> (Array2<f64>, Vec<usize>) {
+pub fn toy_forecaster() -> (Array2<f64>, Vec<usize>) {
     (
         binary(&[0.1, 0.1, 0.4, 0.4, 0.7, 0.7, 0.7, 0.9]),
         vec![0, 0, 0, 1, 0, 1, 1, 1],
     )
 }
 
-/// The multiclass example of CV-07 in shared/reference/METHODS.md.
-pub fn cv07() -> (Array2<f64>, Vec<usize>) {
+/// The multiclass toy of docs/methods.md (check value multiclass-toy).
+pub fn multiclass_toy() -> (Array2<f64>, Vec<usize>) {
     (
         array![
             [0.6, 0.3, 0.1],
