@@ -77,7 +77,10 @@ fn main() -> ExitCode {
     match status {
         Ok(status) => ExitCode::from(status.code()),
         Err(e) => {
-            eprintln!("error: {e}");
+            // One `error:` line per problem (a manifest may have several).
+            for line in e.to_string().lines() {
+                eprintln!("error: {line}");
+            }
             ExitCode::from(error_code)
         }
     }

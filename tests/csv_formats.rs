@@ -39,6 +39,7 @@ fn gzip_delimiters_and_decimal_commas_load_the_same_table() {
     let tab = CsvFormat {
         delimiter: b'\t',
         decimal_comma: false,
+        ..CsvFormat::default()
     };
     same(&plain, &load(tmp.path(), "a.tsv", tabs.as_bytes(), &tab));
 
@@ -46,6 +47,7 @@ fn gzip_delimiters_and_decimal_commas_load_the_same_table() {
     let semi = CsvFormat {
         delimiter: b';',
         decimal_comma: true,
+        ..CsvFormat::default()
     };
     same(
         &plain,

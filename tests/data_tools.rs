@@ -193,7 +193,7 @@ fn add_refuses_data_the_manifest_cannot_run() {
 #[test]
 fn list_shows_every_bundled_dataset_with_its_licence() {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let out = stdout(candor(root).args(["data", "list"]));
+    let out = stdout(candor(root).args(["list", "datasets"]));
     let catalog: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(root.join("datasets/catalog.json")).unwrap())
             .unwrap();

@@ -58,13 +58,13 @@ fn estimated_ece_converges_to_the_known_true_ece() {
     assert!(large < 0.002, "{large}");
 }
 
-/// `candor score` on the demo's `d.csv` by region, without bootstrap
-/// intervals, plus `extra` arguments.
+/// `candor score` on the demo's `deliveries.csv` by region, without
+/// bootstrap intervals, plus `extra` arguments.
 fn score_demo(dir: &Path, extra: &[&str]) {
     let mut args = vec![
         "score",
-        "d.csv",
-        "--label",
+        "deliveries.csv",
+        "--target",
         "late",
         "--group",
         "region",
@@ -78,9 +78,9 @@ fn score_demo(dir: &Path, extra: &[&str]) {
 #[test]
 fn score_reports_the_demo_and_finds_its_known_flaws() {
     let tmp = tempfile::tempdir().unwrap();
-    ok(candor(tmp.path()).args(["demo", "--rows", "20000", "--out", "d.csv"]));
+    ok(candor(tmp.path()).args(["demo", "--rows", "20000"]));
     score_demo(tmp.path(), &["--model", "coop"]);
-    let dir = tmp.path().join("results/score-d");
+    let dir = tmp.path().join("results/score-deliveries");
     for f in [
         "summary.csv",
         "records.jsonl",
@@ -102,12 +102,15 @@ fn score_reports_the_demo_and_finds_its_known_flaws() {
             .unwrap()
             .to_string()
     };
-    assert!(row("d,").contains("over-confident"), "{diag}");
-    assert!(row("d region=north").contains("biased down"), "{diag}");
-    assert!(!row("d region=east").contains("biased"), "{diag}");
+    assert!(row("deliveries,").contains("over-confident"), "{diag}");
+    assert!(
+        row("deliveries region=north").contains("biased down"),
+        "{diag}"
+    );
+    assert!(!row("deliveries region=east").contains("biased"), "{diag}");
     // Recalibration helps: Platt's ECE on the whole file is well below the
     // raw one.
-    assert!(ece_of(&summary, "d", "platt") < 0.5 * ece_of(&summary, "d", "none"));
+    assert!(ece_of(&summary, "deliveries", "platt") < 0.5 * ece_of(&summary, "deliveries", "none"));
 }
 
 fn ece_of(summary: &str, dataset: &str, method: &str) -> f64 {
@@ -173,7 +176,7 @@ fn by_the_documentation(map: &serde_json::Value, p: f64) -> f64 {
 #[test]
 fn saved_maps_apply_as_documented() {
     let tmp = tempfile::tempdir().unwrap();
-    ok(candor(tmp.path()).args(["demo", "--rows", "3000", "--out", "d.csv"]));
+    ok(candor(tmp.path()).args(["demo", "--rows", "3000"]));
     for method in ["platt", "isotonic", "histogram", "beta", "temperature"] {
         let file = format!("{method}.json");
         score_demo(tmp.path(), &["--fit", method, "--save", &file]);
@@ -181,7 +184,13 @@ fn saved_maps_apply_as_documented() {
             serde_json::from_str(&std::fs::read_to_string(tmp.path().join(&file)).unwrap())
                 .unwrap();
         let applied = ok(candor(tmp.path()).args([
-            "apply", &file, "d.csv", "--label", "late", "--group", "region",
+            "apply",
+            &file,
+            "deliveries.csv",
+            "--target",
+            "late",
+            "--group",
+            "region",
         ]));
         let text = String::from_utf8(applied.stdout).unwrap();
         let mut r = csv::Reader::from_reader(text.as_bytes());
@@ -215,12 +224,12 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
     let out = ok(candor(tmp.path()).args([
         "score",
         "m.csv",
-        "--label",
+        "--target",
         "truth",
         "--json",
         "--bootstrap",
         "0",
-        "--folds",
+        "--outer-folds",
         "3",
     ]));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
@@ -232,11 +241,11 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
     ok(candor(tmp.path()).args([
         "score",
         "m.csv",
-        "--label",
+        "--target",
         "truth",
         "--bootstrap",
         "0",
-        "--folds",
+        "--outer-folds",
         "3",
         "--fit",
         "temperature",
@@ -246,7 +255,7 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
     let map: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(tmp.path().join("t.json")).unwrap()).unwrap();
     let t = map["temperature"].as_f64().unwrap();
-    let applied = ok(candor(tmp.path()).args(["apply", "t.json", "m.csv", "--label", "truth"]));
+    let applied = ok(candor(tmp.path()).args(["apply", "t.json", "m.csv", "--target", "truth"]));
     let text = String::from_utf8(applied.stdout).unwrap();
     for line in text.lines().skip(1).take(20) {
         let f: Vec<f64> = line
@@ -264,7 +273,7 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
     let broken = rows.replacen("red,0.2,0.3,0.5", "red,0.2,0.3,0.9", 1);
     std::fs::write(tmp.path().join("b.csv"), broken).unwrap();
     let out = candor(tmp.path())
-        .args(["score", "b.csv", "--label", "truth"])
+        .args(["score", "b.csv", "--target", "truth"])
         .output()
         .unwrap();
     let err = String::from_utf8_lossy(&out.stderr);
@@ -275,12 +284,12 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
     );
     for (args, want) in [
         (
-            vec!["score", "m.csv", "--label", "colour"],
-            "no label column `colour`",
+            vec!["score", "m.csv", "--target", "colour"],
+            "no target column `colour`",
         ),
         (
             vec![
-                "score", "m.csv", "--label", "truth", "--fit", "spline", "--save", "x.json",
+                "score", "m.csv", "--target", "truth", "--fit", "spline", "--save", "x.json",
             ],
             "unknown method",
         ),

@@ -1,19 +1,23 @@
 //! Argument groups that more than one command shares: how a dataset CSV is
 //! written, and how a predictions CSV is laid out.
+//!
+//! The same words mean the same things in every command: `--target` is the
+//! column of true classes, `--positive` the positive class, `--outer-folds`
+//! and `--inner-folds` the manifest's `[evaluation]` fold counts, and
+//! `--out` always a folder. Defaults come from [`crate::common::defaults`].
 
 use crate::common::error::{Error, Result};
-use crate::data::csv::CsvFormat;
+use crate::data::csv::{CsvFormat, Spelling};
 use crate::data::predictions::Layout;
-use std::path::Path;
 
 /// Where the target is and how the CSV is written.
 #[derive(Debug, Clone, clap::Args)]
 pub struct CsvArgs {
-    /// The target column.
-    #[arg(long)]
+    /// The column of true classes.
+    #[arg(short, long, alias = "label")]
     pub target: String,
     /// The positive class of a binary target.
-    #[arg(long)]
+    #[arg(short, long)]
     pub positive: Option<String>,
     /// Field delimiter: one character, or `tab`.
     #[arg(long, default_value = ",")]
@@ -24,7 +28,8 @@ pub struct CsvArgs {
 }
 
 impl CsvArgs {
-    /// The reader's format, or an error naming the option to fix.
+    /// The reader's format, or an error naming the option to fix. Errors
+    /// about the data then name these options, not manifest keys.
     pub fn format(&self) -> Result<CsvFormat> {
         let delimiter = match self.delimiter.as_str() {
             "tab" | "\\t" => b'\t',
@@ -43,6 +48,7 @@ impl CsvArgs {
         Ok(CsvFormat {
             delimiter,
             decimal_comma,
+            spelling: Spelling::Flags,
         })
     }
 }
@@ -50,15 +56,15 @@ impl CsvArgs {
 /// How a predictions CSV is laid out.
 #[derive(Debug, Clone, clap::Args)]
 pub struct LayoutArgs {
-    /// The true-label column.
-    #[arg(long, default_value = "label")]
-    pub label: String,
-    /// A column of segments, e.g. a region; `score` also reports on each
-    /// segment separately.
-    #[arg(long)]
+    /// The column of true classes (optional for `apply`).
+    #[arg(short, long, alias = "label")]
+    pub target: Option<String>,
+    /// A column of segments, e.g. a region: `score` also reports on each
+    /// segment separately, and `apply` keeps the column as it is.
+    #[arg(short, long)]
     pub group: Option<String>,
-    /// The positive label of a binary task [default: `1` or `true`].
-    #[arg(long)]
+    /// The positive class of a binary task [default: `1` or `true`].
+    #[arg(short, long)]
     pub positive: Option<String>,
     /// Probability columns, comma-separated [default: every other column].
     #[arg(long, value_delimiter = ',')]
@@ -69,22 +75,10 @@ pub struct LayoutArgs {
 }
 
 impl LayoutArgs {
-    /// The layout of `path`. With `label_required` false (as for `apply`),
-    /// the label column is taken only if the file's header has one.
-    pub fn layout(self, label_required: bool, path: &Path) -> Layout {
-        let has_label = label_required
-            || std::fs::File::open(path)
-                .ok()
-                .and_then(|f| {
-                    // The header line only; the file may be large.
-                    let mut header = String::new();
-                    std::io::BufRead::read_line(&mut std::io::BufReader::new(f), &mut header)
-                        .ok()?;
-                    Some(header.split(',').any(|c| c.trim() == self.label))
-                })
-                .unwrap_or(false);
+    /// The layout to read predictions with.
+    pub fn layout(self) -> Layout {
         Layout {
-            label: has_label.then_some(self.label),
+            label: self.target,
             group: self.group,
             positive: self.positive,
             columns: self.columns,

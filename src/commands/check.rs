@@ -13,7 +13,7 @@ pub struct CheckArgs {
     /// The experiment manifest (TOML).
     pub manifest: PathBuf,
     /// Folder holding the bundled datasets and their catalog.json.
-    #[arg(long)]
+    #[arg(long, value_name = "DIR")]
     pub datasets: Option<PathBuf>,
 }
 

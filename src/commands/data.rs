@@ -3,25 +3,19 @@
 
 use super::args::CsvArgs;
 use super::{Output, Status};
+use crate::common::defaults;
 use crate::common::error::Result;
-use crate::common::table::Table;
-use crate::data::catalog::Catalog;
 use crate::data::csv::read_csv;
 use crate::data::inspect::inspect;
 use crate::experiment::manifest::append_dataset;
 use crate::export::{Exporter, Text};
 use std::fmt::Write as _;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
-/// The subcommands of `candor data`.
+/// The subcommands of `candor data`. The bundled datasets are listed by
+/// `candor list datasets`, beside everything else a manifest can name.
 #[derive(Debug, Clone, clap::Subcommand)]
 pub enum DataCommand {
-    /// The bundled datasets: rows, features, classes, balance and licence.
-    List {
-        /// Folder holding the bundled datasets and their catalog.json.
-        #[arg(long)]
-        datasets: Option<PathBuf>,
-    },
     /// Schema, missing values, class balance against the folds, and
     /// columns that look like identifiers or leak the target.
     Inspect {
@@ -29,11 +23,11 @@ pub enum DataCommand {
         file: PathBuf,
         #[command(flatten)]
         csv: CsvArgs,
-        /// Outer folds the data must support.
-        #[arg(long, default_value_t = 5)]
-        folds: usize,
-        /// Inner folds the data must support.
-        #[arg(long, default_value_t = 5)]
+        /// Outer folds the data must support (`outer_folds` in a manifest).
+        #[arg(long, alias = "folds", default_value_t = defaults::OUTER_FOLDS)]
+        outer_folds: usize,
+        /// Inner folds the data must support (`inner_folds` in a manifest).
+        #[arg(long, default_value_t = defaults::INNER_FOLDS)]
         inner_folds: usize,
     },
     /// Check a CSV and append a dataset entry for it to a manifest,
@@ -44,7 +38,7 @@ pub enum DataCommand {
         #[command(flatten)]
         csv: CsvArgs,
         /// The manifest to extend.
-        #[arg(long)]
+        #[arg(long, value_name = "MANIFEST")]
         to: PathBuf,
         /// The dataset's name in the manifest [default: the file name].
         #[arg(long)]
@@ -55,15 +49,14 @@ pub enum DataCommand {
 /// Runs one `data` subcommand.
 pub fn execute(command: DataCommand, out: &mut Output) -> Result<Status> {
     match command {
-        DataCommand::List { datasets } => list(datasets, out),
         DataCommand::Inspect {
             file,
             csv,
-            folds,
+            outer_folds,
             inner_folds,
         } => {
             let table = read_csv(&file, &csv.target, csv.positive.as_deref(), &csv.format()?)?;
-            let found = inspect(&table, folds, inner_folds);
+            let found = inspect(&table, outer_folds, inner_folds);
             out.text.push_str(&Text.render(&found.schema));
             out.text.push('\n');
             out.text.push_str(&Text.render(&found.classes));
@@ -104,49 +97,4 @@ pub fn execute(command: DataCommand, out: &mut Output) -> Result<Status> {
             Ok(Status::Success)
         }
     }
-}
-
-/// The catalog as a table, with licences in their short forms.
-fn list(datasets: Option<PathBuf>, out: &mut Output) -> Result<Status> {
-    let cat = Catalog::locate(datasets.as_deref(), Path::new("."))?;
-    let mut t = Table::new(
-        "datasets",
-        &format!("Bundled datasets in {}", cat.dir.display()),
-        &[
-            "id",
-            "task",
-            "rows",
-            "features",
-            "classes",
-            "rarest class",
-            "data licence",
-            "package licence",
-        ],
-    );
-    for e in &cat.entries {
-        // "package: X (pkg); data: Y (notes)" -> the short forms.
-        let part = |key: &str| -> String {
-            e.license
-                .split(';')
-                .find_map(|p| p.trim().strip_prefix(key))
-                .map(|v| v.split(" (").next().unwrap_or_default().trim().to_string())
-                .unwrap_or_else(|| "see PROVENANCE.md".into())
-        };
-        t.rows.push(vec![
-            e.id.as_str().into(),
-            e.task.as_str().into(),
-            e.rows.into(),
-            e.n_features.into(),
-            e.n_classes.into(),
-            format!("{:.1}%", e.minority_share * 100.0).into(),
-            part("data:").into(),
-            part("package:").into(),
-        ]);
-    }
-    t.notes.push(format!(
-        "Full licences and provenance: {}/PROVENANCE.md",
-        cat.dir.display()
-    ));
-    out.text.push_str(&Text.render(&t));
-    Ok(Status::Success)
 }

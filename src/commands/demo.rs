@@ -2,7 +2,8 @@
 //! files, so the tour runs without any data of one's own.
 
 use super::{Output, Status};
-use crate::common::error::Result;
+use crate::common::defaults;
+use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::data::demo;
 use std::fmt::Write as _;
@@ -12,32 +13,35 @@ use std::path::PathBuf;
 #[derive(Debug, Clone, clap::Args)]
 pub struct DemoArgs {
     /// Rows to generate.
-    #[arg(long, default_value_t = 5000)]
+    #[arg(short = 'n', long, default_value_t = defaults::DEMO_ROWS)]
     pub rows: usize,
     /// Seed of the synthetic scenario; the same seed gives the same files.
-    #[arg(long, default_value_t = 7)]
+    #[arg(short, long, default_value_t = defaults::SEED)]
     pub seed: u64,
-    /// The model's predictions (late, region, p_late).
-    #[arg(long, default_value = "deliveries.csv")]
+    /// Folder for the two files: `deliveries.csv`, the model's predictions
+    /// (late, region, p_late), and `parcels.csv`, the parcels' records
+    /// (region, distance_km, rain, late) for `candor data add`.
+    #[arg(short, long, value_name = "DIR", default_value = ".")]
     pub out: PathBuf,
-    /// The parcels' records (region, distance_km, rain, late), for
-    /// `candor data add` and training families.
-    #[arg(long, default_value = "parcels.csv")]
-    pub features: PathBuf,
 }
 
 /// Writes both files and states the model's true ECE, known by design.
 pub fn execute(args: DemoArgs, out: &mut Output) -> Result<Status> {
     let generated = demo::generate(args.rows, args.seed);
-    write_atomic(&args.out, generated.csv().as_bytes())?;
-    write_atomic(&args.features, generated.features_csv().as_bytes())?;
+    std::fs::create_dir_all(&args.out)
+        .map_err(|e| Error::io(&args.out, "create the folder", &e))?;
+    let predictions = args.out.join("deliveries.csv");
+    let records = args.out.join("parcels.csv");
+    write_atomic(&predictions, generated.csv().as_bytes())?;
+    write_atomic(&records, generated.features_csv().as_bytes())?;
     let _ = writeln!(
         out.text,
-        "{} parcels: the co-op model's predictions in {}, the parcels' records in {}; the model's true ECE (15 bins) is {:.4}",
+        "{} parcels: the co-op model's predictions in {}, the parcels' records in {}; the model's true ECE ({} bins) is {:.4}",
         args.rows,
-        args.out.display(),
-        args.features.display(),
-        demo::true_ece(15)
+        predictions.display(),
+        records.display(),
+        defaults::BINS,
+        demo::true_ece(defaults::BINS)
     );
     Ok(Status::Success)
 }

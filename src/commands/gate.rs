@@ -14,16 +14,16 @@ pub struct GateArgs {
     /// The results folder `candor run` wrote.
     pub results: PathBuf,
     /// The baseline file (TOML) with the rules and accepted values.
-    #[arg(long)]
+    #[arg(short, long, value_name = "FILE")]
     pub baseline: PathBuf,
     /// Write the current values into the baseline instead of checking.
     #[arg(long)]
     pub update: bool,
     /// Also write JUnit XML here, one test case per rule.
-    #[arg(long)]
+    #[arg(long, value_name = "FILE")]
     pub junit: Option<PathBuf>,
     /// Also write a Markdown summary here (for a CI job summary).
-    #[arg(long)]
+    #[arg(long, value_name = "FILE")]
     pub markdown: Option<PathBuf>,
 }
 

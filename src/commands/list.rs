@@ -4,7 +4,9 @@
 use super::{Output, Status};
 use crate::common::error::Result;
 use crate::common::params::ParamValue;
+use crate::common::table::Table;
 use crate::data::catalog::Catalog;
+use crate::export::{Exporter, Text};
 use crate::{calibrate, learner, metrics};
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -18,7 +20,7 @@ pub enum ListWhat {
     Methods,
     /// Metrics.
     Metrics,
-    /// Bundled datasets.
+    /// Bundled datasets: rows, features, classes, balance and licences.
     Datasets,
 }
 
@@ -28,7 +30,7 @@ pub struct ListArgs {
     #[arg(value_enum)]
     pub what: ListWhat,
     /// Folder holding the bundled datasets (for `list datasets`).
-    #[arg(long)]
+    #[arg(long, value_name = "DIR")]
     pub datasets: Option<PathBuf>,
 }
 
@@ -72,23 +74,56 @@ pub fn execute(args: ListArgs, out: &mut Output) -> Result<Status> {
                 let _ = writeln!(text, "{:12} {}", m.name, m.about);
             }
         }
-        ListWhat::Datasets => {
-            let cat = Catalog::locate(args.datasets.as_deref(), Path::new("."))?;
-            for e in &cat.entries {
-                let positive = e
-                    .positive
-                    .as_deref()
-                    .map(|p| format!(", positive `{p}`"))
-                    .unwrap_or_default();
-                let _ = writeln!(
-                    text,
-                    "{:34} {:10} {:>6} rows{positive}  {}",
-                    e.id, e.task, e.rows, e.name
-                );
-            }
-        }
+        ListWhat::Datasets => datasets(args.datasets.as_deref(), text)?,
     }
     Ok(Status::Success)
+}
+
+/// The catalog as a table, with licences in their short forms.
+fn datasets(dir: Option<&Path>, text: &mut String) -> Result<()> {
+    let cat = Catalog::locate(dir, Path::new("."))?;
+    let mut t = Table::new(
+        "datasets",
+        &format!("Bundled datasets in {}", cat.dir.display()),
+        &[
+            "id",
+            "task",
+            "rows",
+            "features",
+            "classes",
+            "positive",
+            "rarest class",
+            "data licence",
+            "package licence",
+        ],
+    );
+    for e in &cat.entries {
+        // "package: X (pkg); data: Y (notes)" -> the short forms.
+        let part = |key: &str| -> String {
+            e.license
+                .split(';')
+                .find_map(|p| p.trim().strip_prefix(key))
+                .map(|v| v.split(" (").next().unwrap_or_default().trim().to_string())
+                .unwrap_or_else(|| "see PROVENANCE.md".into())
+        };
+        t.rows.push(vec![
+            e.id.as_str().into(),
+            e.task.as_str().into(),
+            e.rows.into(),
+            e.n_features.into(),
+            e.n_classes.into(),
+            e.positive.as_deref().unwrap_or("-").into(),
+            format!("{:.1}%", e.minority_share * 100.0).into(),
+            part("data:").into(),
+            part("package:").into(),
+        ]);
+    }
+    t.notes.push(format!(
+        "Full licences and provenance: {}/PROVENANCE.md",
+        cat.dir.display()
+    ));
+    text.push_str(&Text.render(&t));
+    Ok(())
 }
 
 /// A default as a manifest would spell it (floats keep their point).

@@ -13,7 +13,7 @@ pub struct ReportArgs {
     /// The results folder `candor run` wrote.
     pub results: PathBuf,
     /// Metric that decides "best" and the ranking.
-    #[arg(long, default_value = "brier")]
+    #[arg(short, long, default_value = "brier")]
     pub metric: String,
     /// Also write PNG copies of the figures.
     #[arg(long)]

@@ -19,19 +19,19 @@ pub struct RunArgs {
     /// The experiment manifest (TOML).
     pub manifest: PathBuf,
     /// Results folder [default: results/<experiment name>].
-    #[arg(long)]
+    #[arg(short, long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Worker threads; 0 uses every core. Results do not depend on it.
-    #[arg(long, default_value_t = 0)]
+    #[arg(short = 'j', long, default_value_t = 0)]
     pub threads: usize,
     /// Folder holding the bundled datasets and their catalog.json.
-    #[arg(long)]
+    #[arg(long, value_name = "DIR")]
     pub datasets: Option<PathBuf>,
     /// No progress bar and no table; errors only.
     #[arg(long, short)]
     pub quiet: bool,
     /// Metric that decides "best" and the ranking in the report.
-    #[arg(long, default_value = "brier")]
+    #[arg(short, long, default_value = "brier")]
     pub metric: String,
     /// Also write PNG copies of the report's figures.
     #[arg(long)]

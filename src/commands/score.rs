@@ -5,6 +5,7 @@
 use super::args::LayoutArgs;
 use super::{Output, Status};
 use crate::calibrate;
+use crate::common::defaults;
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::experiment::score::{self, ScoreOptions};
@@ -24,23 +25,24 @@ pub struct ScoreArgs {
     pub predictions: PathBuf,
     #[command(flatten)]
     pub layout: LayoutArgs,
-    /// Cross-fitting folds.
-    #[arg(long, default_value_t = 5)]
-    pub folds: usize,
+    /// Folds the rows are split into: each is calibrated by maps fitted on
+    /// the others (`outer_folds` in a manifest).
+    #[arg(long, alias = "folds", default_value_t = defaults::OUTER_FOLDS)]
+    pub outer_folds: usize,
     /// Seed of the fold split and the bootstrap.
-    #[arg(long, default_value_t = 20261202)]
+    #[arg(short, long, default_value_t = defaults::SEED)]
     pub seed: u64,
     /// Equal-width bins for ECE and the reliability diagrams.
-    #[arg(long, default_value_t = 15)]
+    #[arg(long, default_value_t = defaults::BINS)]
     pub bins: usize,
     /// Bootstrap resamples per fold for the ECE and Brier intervals.
-    #[arg(long, default_value_t = 200)]
+    #[arg(long, default_value_t = defaults::BOOTSTRAP)]
     pub bootstrap: usize,
     /// The model's name in the tables.
     #[arg(long, default_value = "model")]
     pub model: String,
     /// Results folder [default: results/score-<file name>].
-    #[arg(long)]
+    #[arg(short, long, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// Print the predictions' metrics as JSON on standard output (the
     /// results folder is still written, and named on standard error).
@@ -50,14 +52,19 @@ pub struct ScoreArgs {
     #[arg(long, requires = "save")]
     pub fit: Option<String>,
     /// Where --fit writes the calibration map (JSON).
-    #[arg(long, requires = "fit")]
+    #[arg(long, requires = "fit", value_name = "FILE")]
     pub save: Option<PathBuf>,
 }
 
 /// Scores the predictions into a results folder with its report.
 pub fn execute(args: ScoreArgs, out: &mut Output) -> Result<Status> {
-    if args.folds < 2 {
-        return Err(Error::Manifest("--folds must be at least 2".into()));
+    if args.outer_folds < 2 {
+        return Err(Error::Manifest("--outer-folds must be at least 2".into()));
+    }
+    if args.layout.target.is_none() {
+        return Err(Error::Manifest(
+            "name the column of true classes with --target COLUMN".into(),
+        ));
     }
     if let Some(m) = args.fit.as_deref().filter(|m| calibrate::find(m).is_none()) {
         return Err(Error::Manifest(format!(
@@ -73,8 +80,8 @@ pub fn execute(args: ScoreArgs, out: &mut Output) -> Result<Status> {
         .out
         .unwrap_or_else(|| PathBuf::from("results").join(format!("score-{stem}")));
     let opts = ScoreOptions {
-        layout: args.layout.layout(true, &args.predictions),
-        folds: args.folds,
+        layout: args.layout.layout(),
+        folds: args.outer_folds,
         seed: args.seed,
         bins: args.bins,
         bootstrap: args.bootstrap,
@@ -127,17 +134,26 @@ pub struct ApplyArgs {
     pub predictions: PathBuf,
     #[command(flatten)]
     pub layout: LayoutArgs,
-    /// Output CSV [default: standard output].
-    #[arg(long)]
+    /// Folder for the calibrated CSV, written as `<file name>.calibrated.csv`
+    /// [default: standard output].
+    #[arg(short, long, value_name = "DIR")]
     pub out: Option<PathBuf>,
 }
 
 /// Writes the predictions with calibrated columns added.
 pub fn apply(args: ApplyArgs, out: &mut Output) -> Result<Status> {
-    let layout = args.layout.layout(false, &args.predictions);
-    let csv = score::apply(&args.map, &args.predictions, &layout)?;
+    let csv = score::apply(&args.map, &args.predictions, &args.layout.layout())?;
     match args.out {
-        Some(path) => write_atomic(&path, csv.as_bytes())?,
+        Some(dir) => {
+            let stem = args
+                .predictions
+                .file_stem()
+                .map_or("predictions".into(), |s| s.to_string_lossy().to_string());
+            std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, "create the folder", &e))?;
+            let path = dir.join(format!("{stem}.calibrated.csv"));
+            write_atomic(&path, csv.as_bytes())?;
+            out.note(format!("wrote {}", path.display()));
+        }
         None => out.text.push_str(&csv),
     }
     Ok(Status::Success)

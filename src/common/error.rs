@@ -2,7 +2,8 @@
 //!
 //! Every message is a single line that says where the problem is (file, line,
 //! key, dataset or cell) and what to do about it, in the style of cargo and
-//! ripgrep, so that the CLI can print it as it is.
+//! ripgrep, so that the CLI can print it as it is. A manifest with several
+//! problems gives one such line per problem.
 
 use std::fmt;
 use std::path::Path;

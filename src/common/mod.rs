@@ -6,6 +6,7 @@
 //! of candor, so every stage above can depend on it without a cycle.
 
 pub mod checksum;
+pub mod defaults;
 pub mod error;
 pub mod files;
 pub mod glm;

@@ -26,6 +26,30 @@ pub struct CsvFormat {
     /// Numbers are written with a decimal comma (`3,14`); needs a
     /// delimiter other than the comma.
     pub decimal_comma: bool,
+    /// How the user gave the settings, so errors name what they typed.
+    /// Not part of the format: it never changes what is read.
+    #[serde(skip)]
+    pub spelling: Spelling,
+}
+
+/// Where the reading settings came from: a manifest's dataset keys or a
+/// command's flags. Errors name the key (`positive`) to a manifest's author
+/// and the flag (`--positive`) to someone at the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Spelling {
+    #[default]
+    Manifest,
+    Flags,
+}
+
+impl Spelling {
+    /// The setting `key` as the user writes it.
+    pub fn key(self, key: &str) -> String {
+        match self {
+            Spelling::Manifest => format!("`{key}`"),
+            Spelling::Flags => format!("--{key}"),
+        }
+    }
 }
 
 impl Default for CsvFormat {
@@ -33,6 +57,7 @@ impl Default for CsvFormat {
         CsvFormat {
             delimiter: b',',
             decimal_comma: false,
+            spelling: Spelling::Manifest,
         }
     }
 }
@@ -41,7 +66,7 @@ impl CsvFormat {
     /// True for the default format, so manifests that never set it keep
     /// their recorded settings and fingerprints.
     pub fn is_default(&self) -> bool {
-        *self == CsvFormat::default()
+        !self.decimal_comma && self.delimiter == b','
     }
 
     fn number(&self, field: &str) -> Option<f64> {
@@ -125,7 +150,7 @@ fn parse_stream(
     let target_idx = find_target(&headers, file, target, format)?;
     let (mut building, targets) =
         first_pass(&mut rdr, file, target, target_idx, headers.len(), format)?;
-    let (labels, classes) = encode_target(file, target, &targets, positive)?;
+    let (labels, classes) = encode_target(file, target, &targets, positive, format.spelling)?;
     drop(targets);
     second_pass(open, file, format, &mut building, labels.len())?;
     let (columns, warnings) = finish_columns(file, &headers, building, target_idx)?;
@@ -176,13 +201,17 @@ fn find_target(headers: &[String], file: &str, target: &str, format: &CsvFormat)
     let shown: Vec<&str> = headers.iter().take(20).map(String::as_str).collect();
     let more = if headers.len() > 20 { ", ..." } else { "" };
     let hint = if headers.len() == 1 && format.delimiter == b',' {
-        " (one column only: if the file uses `;` or tabs, set `delimiter`)"
+        format!(
+            " (one column only: if the file uses `;` or tabs, set {})",
+            format.spelling.key("delimiter")
+        )
     } else {
-        ""
+        String::new()
     };
     Err(Error::Data(format!(
-        "{file}: no column named `{target}` for the target; columns are: {}{more}{hint}; set `target` to one of them",
-        shown.join(", ")
+        "{file}: no column named `{target}` for the target; columns are: {}{more}{hint}; set {} to one of them",
+        shown.join(", "),
+        format.spelling.key("target")
     )))
 }
 

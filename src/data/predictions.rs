@@ -101,7 +101,7 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
     let label_col = layout
         .label
         .as_deref()
-        .map(|l| find(l, "label"))
+        .map(|l| find(l, "target"))
         .transpose()?;
     let group_col = layout
         .group

@@ -2,6 +2,7 @@
 //! numerically when they are numbers, and a binary target's positive class
 //! placed second, so "the probability" always means the positive class's.
 
+use super::csv::Spelling;
 use crate::common::error::{Error, Result};
 
 /// Orders labels numerically when they are all numbers, else as text.
@@ -33,7 +34,9 @@ pub(super) fn encode_target(
     target: &str,
     values: &[String],
     positive: Option<&str>,
+    spelling: Spelling,
 ) -> Result<(Vec<usize>, Vec<String>)> {
+    let positive_key = spelling.key("positive");
     let mut classes: Vec<String> = values.to_vec();
     classes.sort();
     classes.dedup();
@@ -73,7 +76,7 @@ pub(super) fn encode_target(
                     })
                     .ok_or_else(|| {
                         Error::Data(format!(
-                            "{file}: the binary target `{target}` has labels `{}` and `{}`; set `positive` to the one whose probability you want",
+                            "{file}: the binary target `{target}` has labels `{}` and `{}`; set {positive_key} to the one whose probability you want",
                             classes[0], classes[1]
                         ))
                     })?,
@@ -85,7 +88,7 @@ pub(super) fn encode_target(
         k => {
             if let Some(p) = positive {
                 return Err(Error::Data(format!(
-                    "{file}: `positive = \"{p}\"` applies to binary targets, but `{target}` has {k} classes; remove `positive`"
+                    "{file}: {positive_key} `{p}` applies to binary targets, but `{target}` has {k} classes; remove {positive_key}"
                 )));
             }
         }

@@ -7,6 +7,7 @@
 //! See the README's manifest reference for every key.
 
 use crate::common::checksum::hex_sha256;
+use crate::common::defaults;
 use crate::common::error::{Error, Result};
 use crate::common::params::{self, Params};
 use crate::data::csv::CsvFormat;
@@ -15,6 +16,7 @@ use crate::data::source::{DataSource, DatasetSpec};
 use crate::data::table::Table;
 use crate::{calibrate, learner, metrics};
 use serde::{Deserialize, Serialize};
+use std::cell::RefCell;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use toml::Spanned;
@@ -143,17 +145,16 @@ struct RawFamily {
     params: Option<BTreeMap<Spanned<String>, Spanned<toml::Value>>>,
 }
 
-/// Default protocol: 5 outer folds, 1 repeat, 5 inner folds, 15 bins,
-/// 10 Hosmer-Lemeshow groups and 1000 bootstrap resamples seeded by the
-/// experiment seed.
+/// The default protocol (see [`defaults`]), with the bootstrap seeded by
+/// the experiment seed.
 pub fn default_evaluation(seed: u64) -> Evaluation {
     Evaluation {
-        outer_folds: 5,
-        repeats: 1,
-        inner_folds: 5,
-        bins: 15,
-        hl_groups: 10,
-        bootstrap: 1000,
+        outer_folds: defaults::OUTER_FOLDS,
+        repeats: defaults::REPEATS,
+        inner_folds: defaults::INNER_FOLDS,
+        bins: defaults::BINS,
+        hl_groups: defaults::HL_GROUPS,
+        bootstrap: defaults::BOOTSTRAP,
         bootstrap_seed: seed,
     }
 }
@@ -200,219 +201,47 @@ pub fn load(path: &Path) -> Result<Experiment> {
 
 /// Checks a manifest's text; `source.path` is used in messages and to
 /// resolve relative paths.
+///
+/// Like a compiler, it reports every problem it can find in one pass, one
+/// `file:line:column: message` line each. TOML syntax, unknown keys and
+/// wrong types stop at the first, because what follows them cannot be
+/// read reliably; every later check (names, kinds, parameters, ranges)
+/// runs on all entries and all of its findings are returned together.
 pub fn parse(source: ManifestSource) -> Result<Experiment> {
     let at = Locator {
         file: source.path.display().to_string(),
         text: &source.text,
+        problems: RefCell::new(Vec::new()),
     };
     let raw: RawManifest = toml::from_str(&source.text).map_err(|e| {
         let msg = e.message().trim().replace('\n', " ");
         match e.span() {
-            Some(span) => at.error(span.start, &msg),
+            Some(span) => Error::Manifest(format!("{}: {msg}", at.position(span.start))),
             None => Error::Manifest(format!("{}: {msg}", at.file)),
         }
     })?;
 
     let name = raw.name.get_ref().clone();
-    check_label(&at, &raw.name, "experiment name")?;
+    check_label(&at, &raw.name, "experiment name");
 
-    let seed = raw.seed.map(|s| s.into_inner()).unwrap_or(0);
-    let evaluation = evaluation(&at, raw.evaluation, seed)?;
-    let methods = methods(&at, raw.calibrators)?;
-    let calibration = calibration_settings(&at, raw.calibration)?;
-    let metrics = metric_names(&at, raw.metrics)?;
+    let seed = raw.seed.map_or(defaults::SEED, |s| s.into_inner());
+    let evaluation = evaluation(&at, raw.evaluation, seed);
+    let methods = methods(&at, raw.calibrators);
+    let calibration = calibration_settings(&at, raw.calibration);
+    let metrics = metric_names(&at, raw.metrics);
 
     if raw.datasets.is_empty() {
-        return Err(Error::Manifest(format!(
-            "{}: no datasets; add a [[dataset]] table with `name` and `bundled` or `path`",
-            at.file
-        )));
+        at.report_file("no datasets; add a [[dataset]] table with `name` and `bundled` or `path`");
     }
     if raw.families.is_empty() {
-        return Err(Error::Manifest(format!(
-            "{}: no model families; add a [[family]] table with `name` and `kind` (known kinds: {})",
-            at.file,
+        at.report_file(&format!(
+            "no model families; add a [[family]] table with `name` and `kind` (known kinds: {})",
             learner::known_kinds()
-        )));
+        ));
     }
-
-    let mut datasets = Vec::new();
-    for d in raw.datasets {
-        check_label(&at, &d.name, "dataset name")?;
-        if let Some(prev) = datasets
-            .iter()
-            .find(|p: &&DatasetSpec| p.name == *d.name.get_ref())
-        {
-            return Err(at.error(
-                d.name.span().start,
-                &format!(
-                    "duplicate dataset name `{}` (first used at {}); give each dataset a unique name",
-                    d.name.get_ref(),
-                    prev.origin
-                ),
-            ));
-        }
-        let source = match (&d.bundled, &d.path) {
-            (Some(b), None) => DataSource::Bundled(b.get_ref().clone()),
-            (None, Some(p)) => DataSource::Path(PathBuf::from(p.get_ref())),
-            (Some(b), Some(_)) => {
-                return Err(at.error(
-                    b.span().start,
-                    "a dataset takes either `bundled` or `path`, not both; keep one",
-                ))
-            }
-            (None, None) => {
-                return Err(at.error(
-                    d.name.span().start,
-                    &format!(
-                    "dataset `{}` needs `bundled = \"<catalog id>\"` or `path = \"<file.csv>\"`",
-                    d.name.get_ref()
-                ),
-                ))
-            }
-        };
-        if let (DataSource::Path(_), None) = (&source, &d.target) {
-            return Err(at.error(
-                d.name.span().start,
-                &format!(
-                    "dataset `{}` reads a file, so it needs `target = \"<column>\"`",
-                    d.name.get_ref()
-                ),
-            ));
-        }
-        let positive = match &d.positive {
-            None => None,
-            Some(v) => Some(match v.get_ref() {
-                toml::Value::String(s) => s.clone(),
-                toml::Value::Integer(i) => i.to_string(),
-                toml::Value::Boolean(b) => b.to_string(),
-                other => {
-                    return Err(at.error(
-                        v.span().start,
-                        &format!(
-                            "`positive` must be a label (string, integer or boolean), found {}",
-                            other.type_str()
-                        ),
-                    ))
-                }
-            }),
-        };
-        let mut format = CsvFormat::default();
-        if let Some(dl) = &d.delimiter {
-            format.delimiter = match dl.get_ref().as_str() {
-                "tab" | "\t" => b'\t',
-                one if one.len() == 1 && one != "\"" && one != "\n" => one.as_bytes()[0],
-                other => {
-                    return Err(at.error(
-                        dl.span().start,
-                        &format!("`delimiter = \"{other}\"` must be one ASCII character such as \",\", \";\" or \"|\", or \"tab\""),
-                    ))
-                }
-            };
-        }
-        if let Some(dec) = &d.decimal {
-            format.decimal_comma = match dec.get_ref().as_str() {
-                "." => false,
-                "," => true,
-                other => {
-                    return Err(at.error(
-                        dec.span().start,
-                        &format!("`decimal = \"{other}\"` must be \".\" or \",\""),
-                    ))
-                }
-            };
-            if format.decimal_comma && format.delimiter == b',' {
-                return Err(at.error(
-                    dec.span().start,
-                    "`decimal = \",\"` needs another field delimiter; set `delimiter = \";\"` (or the file's own)",
-                ));
-            }
-        }
-        if let (DataSource::Bundled(_), false) = (&source, format.is_default()) {
-            return Err(at.error(
-                d.name.span().start,
-                "bundled datasets are plain comma-separated files; `delimiter` and `decimal` apply to `path` datasets",
-            ));
-        }
-        datasets.push(DatasetSpec {
-            name: d.name.get_ref().clone(),
-            source,
-            target: d.target.map(|t| t.into_inner()),
-            positive,
-            format,
-            origin: at.position(d.name.span().start),
-        });
-    }
-
-    let mut families: Vec<FamilySpec> = Vec::new();
-    let mut family_origins: Vec<String> = Vec::new();
-    for f in raw.families {
-        check_label(&at, &f.name, "family name")?;
-        if let Some(i) = families.iter().position(|p| p.name == *f.name.get_ref()) {
-            return Err(at.error(
-                f.name.span().start,
-                &format!(
-                    "duplicate family name `{}` (first used at {}); give each family a unique name",
-                    f.name.get_ref(),
-                    family_origins[i]
-                ),
-            ));
-        }
-        let (kind, kind_at) = match &f.kind {
-            Some(k) => (k.get_ref().clone(), k.span().start),
-            None => (f.name.get_ref().clone(), f.name.span().start),
-        };
-        let Some(family) = learner::find(&kind) else {
-            if let Some(new) = learner::renamed(learner::RENAMED_KINDS, &kind) {
-                return Err(at.error(
-                    kind_at,
-                    &format!("family kind `{kind}` is now called `{new}`; rename it"),
-                ));
-            }
-            return Err(at.error(
-                kind_at,
-                &format!(
-                    "unknown family kind `{kind}`; known kinds: {} (`candor list families` describes them)",
-                    learner::known_kinds()
-                ),
-            ));
-        };
-        let mut values = Params::defaults(family.params);
-        for (key, value) in f.params.unwrap_or_default() {
-            let Some(spec) = family.params.iter().find(|s| s.name == key.get_ref()) else {
-                let allowed: Vec<&str> = family.params.iter().map(|s| s.name).collect();
-                if let Some(new) = learner::renamed(learner::RENAMED_PARAMS, key.get_ref())
-                    .filter(|new| allowed.contains(new))
-                {
-                    return Err(at.error(
-                        key.span().start,
-                        &format!(
-                            "parameter `{}` is now called `{new}`; rename it",
-                            key.get_ref()
-                        ),
-                    ));
-                }
-                return Err(at.error(
-                    key.span().start,
-                    &format!(
-                        "unknown parameter `{}` for family kind `{kind}`; allowed: {}",
-                        key.get_ref(),
-                        allowed.join(", ")
-                    ),
-                ));
-            };
-            let checked = params::check(spec, value.get_ref())
-                .map_err(|msg| at.error(value.span().start, &msg))?;
-            values.0.insert(spec.name.to_string(), checked);
-        }
-        family_origins.push(at.position(f.name.span().start));
-        families.push(FamilySpec {
-            name: f.name.get_ref().clone(),
-            kind,
-            params: values,
-        });
-    }
-
+    let datasets = datasets(&at, raw.datasets);
+    let families = families(&at, raw.families);
+    at.finish()?;
     Ok(Experiment {
         name,
         seed,
@@ -426,117 +255,311 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
     })
 }
 
-fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Result<Evaluation> {
+/// The dataset entries that pass their checks; problems go to `at`.
+fn datasets(at: &Locator, raw: Vec<RawDataset>) -> Vec<DatasetSpec> {
+    let mut datasets: Vec<DatasetSpec> = Vec::new();
+    for d in raw {
+        check_label(at, &d.name, "dataset name");
+        if let Some(prev) = datasets.iter().find(|p| p.name == *d.name.get_ref()) {
+            at.report(
+                d.name.span().start,
+                &format!(
+                    "duplicate dataset name `{}` (first used at {}); give each dataset a unique name",
+                    d.name.get_ref(),
+                    prev.origin
+                ),
+            );
+            continue;
+        }
+        let source = match (&d.bundled, &d.path) {
+            (Some(b), None) => DataSource::Bundled(b.get_ref().clone()),
+            (None, Some(p)) => DataSource::Path(PathBuf::from(p.get_ref())),
+            (Some(b), Some(_)) => {
+                at.report(
+                    b.span().start,
+                    "a dataset takes either `bundled` or `path`, not both; keep one",
+                );
+                continue;
+            }
+            (None, None) => {
+                at.report(
+                    d.name.span().start,
+                    &format!(
+                        "dataset `{}` needs `bundled = \"<catalog id>\"` or `path = \"<file.csv>\"`",
+                        d.name.get_ref()
+                    ),
+                );
+                continue;
+            }
+        };
+        if let (DataSource::Path(_), None) = (&source, &d.target) {
+            at.report(
+                d.name.span().start,
+                &format!(
+                    "dataset `{}` reads a file, so it needs `target = \"<column>\"`",
+                    d.name.get_ref()
+                ),
+            );
+        }
+        let positive = match &d.positive {
+            None => None,
+            Some(v) => match v.get_ref() {
+                toml::Value::String(s) => Some(s.clone()),
+                toml::Value::Integer(i) => Some(i.to_string()),
+                toml::Value::Boolean(b) => Some(b.to_string()),
+                other => {
+                    at.report(
+                        v.span().start,
+                        &format!(
+                            "`positive` must be a label (string, integer or boolean), found {}",
+                            other.type_str()
+                        ),
+                    );
+                    None
+                }
+            },
+        };
+        let format = csv_format(at, &d);
+        if let (DataSource::Bundled(_), false) = (&source, format.is_default()) {
+            at.report(
+                d.name.span().start,
+                "bundled datasets are plain comma-separated files; `delimiter` and `decimal` apply to `path` datasets",
+            );
+        }
+        datasets.push(DatasetSpec {
+            name: d.name.get_ref().clone(),
+            source,
+            target: d.target.map(|t| t.into_inner()),
+            positive,
+            format,
+            origin: at.position(d.name.span().start),
+        });
+    }
+    datasets
+}
+
+/// A dataset's `delimiter` and `decimal`; problems go to `at`.
+fn csv_format(at: &Locator, d: &RawDataset) -> CsvFormat {
+    let mut format = CsvFormat::default();
+    if let Some(dl) = &d.delimiter {
+        match dl.get_ref().as_str() {
+            "tab" | "\t" => format.delimiter = b'\t',
+            one if one.len() == 1 && one != "\"" && one != "\n" => {
+                format.delimiter = one.as_bytes()[0];
+            }
+            other => at.report(
+                dl.span().start,
+                &format!("`delimiter = \"{other}\"` must be one ASCII character such as \",\", \";\" or \"|\", or \"tab\""),
+            ),
+        }
+    }
+    if let Some(dec) = &d.decimal {
+        match dec.get_ref().as_str() {
+            "." => {}
+            "," if format.delimiter == b',' => at.report(
+                dec.span().start,
+                "`decimal = \",\"` needs another field delimiter; set `delimiter = \";\"` (or the file's own)",
+            ),
+            "," => format.decimal_comma = true,
+            other => at.report(
+                dec.span().start,
+                &format!("`decimal = \"{other}\"` must be \".\" or \",\""),
+            ),
+        }
+    }
+    format
+}
+
+/// The family entries that pass their checks; problems go to `at`.
+fn families(at: &Locator, raw: Vec<RawFamily>) -> Vec<FamilySpec> {
+    let mut families: Vec<FamilySpec> = Vec::new();
+    let mut origins: Vec<String> = Vec::new();
+    for f in raw {
+        check_label(at, &f.name, "family name");
+        if let Some(i) = families.iter().position(|p| p.name == *f.name.get_ref()) {
+            at.report(
+                f.name.span().start,
+                &format!(
+                    "duplicate family name `{}` (first used at {}); give each family a unique name",
+                    f.name.get_ref(),
+                    origins[i]
+                ),
+            );
+            continue;
+        }
+        let (kind, kind_at) = match &f.kind {
+            Some(k) => (k.get_ref().clone(), k.span().start),
+            None => (f.name.get_ref().clone(), f.name.span().start),
+        };
+        let Some(family) = learner::find(&kind) else {
+            match learner::renamed(learner::RENAMED_KINDS, &kind) {
+                Some(new) => at.report(
+                    kind_at,
+                    &format!("family kind `{kind}` is now called `{new}`; rename it"),
+                ),
+                None => at.report(
+                    kind_at,
+                    &format!(
+                        "unknown family kind `{kind}`; known kinds: {} (`candor list families` describes them)",
+                        learner::known_kinds()
+                    ),
+                ),
+            }
+            continue;
+        };
+        let mut values = Params::defaults(family.params);
+        for (key, value) in f.params.unwrap_or_default() {
+            let Some(spec) = family.params.iter().find(|s| s.name == key.get_ref()) else {
+                let allowed: Vec<&str> = family.params.iter().map(|s| s.name).collect();
+                match learner::renamed(learner::RENAMED_PARAMS, key.get_ref())
+                    .filter(|new| allowed.contains(new))
+                {
+                    Some(new) => at.report(
+                        key.span().start,
+                        &format!(
+                            "parameter `{}` is now called `{new}`; rename it",
+                            key.get_ref()
+                        ),
+                    ),
+                    None => at.report(
+                        key.span().start,
+                        &format!(
+                            "unknown parameter `{}` for family kind `{kind}`; allowed: {}",
+                            key.get_ref(),
+                            allowed.join(", ")
+                        ),
+                    ),
+                }
+                continue;
+            };
+            match params::check(spec, value.get_ref()) {
+                Ok(checked) => {
+                    values.0.insert(spec.name.to_string(), checked);
+                }
+                Err(msg) => at.report(value.span().start, &msg),
+            }
+        }
+        origins.push(at.position(f.name.span().start));
+        families.push(FamilySpec {
+            name: f.name.get_ref().clone(),
+            kind,
+            params: values,
+        });
+    }
+    families
+}
+
+fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Evaluation {
     let d = default_evaluation(seed);
-    let Some(raw) = raw else { return Ok(d) };
+    let Some(raw) = raw else { return d };
     let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| match v
     {
-        None => Ok(default),
-        Some(s) if (min..=max).contains(s.get_ref()) => Ok(*s.get_ref()),
-        Some(s) => Err(at.error(
-            s.span().start,
-            &format!(
-                "`{key}` = {} is out of range; use an integer from {min} to {max}",
-                s.get_ref()
-            ),
-        )),
+        None => default,
+        Some(s) if (min..=max).contains(s.get_ref()) => *s.get_ref(),
+        Some(s) => {
+            at.report(
+                s.span().start,
+                &format!(
+                    "`{key}` = {} is out of range; use an integer from {min} to {max}",
+                    s.get_ref()
+                ),
+            );
+            default
+        }
     };
-    Ok(Evaluation {
-        outer_folds: get(raw.outer_folds, d.outer_folds, 2, 100, "outer_folds")?,
-        repeats: get(raw.repeats, d.repeats, 1, 100, "repeats")?,
-        inner_folds: get(raw.inner_folds, d.inner_folds, 2, 100, "inner_folds")?,
-        bins: get(raw.bins, d.bins, 1, 1000, "bins")?,
-        hl_groups: get(raw.hl_groups, d.hl_groups, 3, 100, "hl_groups")?,
-        bootstrap: get(raw.bootstrap, d.bootstrap, 0, 100_000, "bootstrap")?,
+    Evaluation {
+        outer_folds: get(raw.outer_folds, d.outer_folds, 2, 100, "outer_folds"),
+        repeats: get(raw.repeats, d.repeats, 1, 100, "repeats"),
+        inner_folds: get(raw.inner_folds, d.inner_folds, 2, 100, "inner_folds"),
+        bins: get(raw.bins, d.bins, 1, 1000, "bins"),
+        hl_groups: get(raw.hl_groups, d.hl_groups, 3, 100, "hl_groups"),
+        bootstrap: get(raw.bootstrap, d.bootstrap, 0, 100_000, "bootstrap"),
         bootstrap_seed: raw
             .bootstrap_seed
             .map_or(d.bootstrap_seed, |s| s.into_inner()),
-    })
+    }
 }
 
-fn calibration_settings(
-    at: &Locator,
-    raw: Option<RawCalibration>,
-) -> Result<crate::calibrate::Settings> {
+fn calibration_settings(at: &Locator, raw: Option<RawCalibration>) -> crate::calibrate::Settings {
     let mut s = crate::calibrate::Settings::default();
     if let Some(bins) = raw.and_then(|r| r.histogram_bins) {
-        if !(2..=1000).contains(bins.get_ref()) {
-            return Err(at.error(
+        if (2..=1000).contains(bins.get_ref()) {
+            s.histogram_bins = *bins.get_ref();
+        } else {
+            at.report(
                 bins.span().start,
                 &format!(
                     "`histogram_bins` = {} is out of range; use an integer from 2 to 1000",
                     bins.get_ref()
                 ),
-            ));
+            );
         }
-        s.histogram_bins = *bins.get_ref();
     }
-    Ok(s)
+    s
 }
 
-/// Checks a list of registry names for unknown and duplicate entries.
+/// The known, distinct names of a list; unknown and repeated entries are
+/// reported to `at`.
 fn checked_names(
     at: &Locator,
     list: Vec<Spanned<String>>,
     what: &str,
     known: impl Fn(&str) -> bool,
     known_list: &str,
-) -> Result<Vec<String>> {
+) -> Vec<String> {
     let mut out: Vec<String> = Vec::new();
     for item in list {
         let name = item.get_ref();
         if !known(name) {
-            return Err(at.error(
+            at.report(
                 item.span().start,
                 &format!("unknown {what} `{name}`; known: {known_list}"),
-            ));
-        }
-        if out.contains(name) {
-            return Err(at.error(
+            );
+        } else if out.contains(name) {
+            at.report(
                 item.span().start,
                 &format!("{what} `{name}` is listed twice; list each once"),
-            ));
+            );
+        } else {
+            out.push(name.clone());
         }
-        out.push(name.clone());
     }
-    Ok(out)
+    out
 }
 
-fn methods(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String>> {
-    let all = || {
-        calibrate::METHODS
+fn methods(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Vec<String> {
+    let Some(list) = raw else {
+        return calibrate::METHODS
             .iter()
             .map(|m| m.name.to_string())
-            .collect()
+            .collect();
     };
-    let Some(list) = raw else { return Ok(all()) };
     let mut names = checked_names(
         at,
         list,
         "calibration method",
         |n| calibrate::find(n).is_some(),
         &calibrate::known_methods(),
-    )?;
+    );
     // The raw row is what every method is compared against, so it is always
     // computed and always first.
     names.retain(|n| n != calibrate::NONE);
     names.insert(0, calibrate::NONE.to_string());
-    Ok(names)
+    names
 }
 
-fn metric_names(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<String>> {
+fn metric_names(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Vec<String> {
     let Some(list) = raw else {
-        return Ok(metrics::METRICS
+        return metrics::METRICS
             .iter()
             .map(|m| m.name.to_string())
-            .collect());
+            .collect();
     };
     if list.is_empty() {
-        return Err(Error::Manifest(format!(
-            "{}: `metrics` is empty; list at least one of: {}",
-            at.file,
+        at.report_file(&format!(
+            "`metrics` is empty; list at least one of: {}",
             metrics::known_metrics()
-        )));
+        ));
     }
     checked_names(
         at,
@@ -548,29 +571,30 @@ fn metric_names(at: &Locator, raw: Option<Vec<Spanned<String>>>) -> Result<Vec<S
 }
 
 /// Names become folder names and table keys, so keep them portable.
-fn check_label(at: &Locator, name: &Spanned<String>, what: &str) -> Result<()> {
+fn check_label(at: &Locator, name: &Spanned<String>, what: &str) {
     let s = name.get_ref();
     let ok = !s.is_empty()
         && s.len() <= 64
         && s.chars()
             .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-' || c == '.')
         && !s.starts_with('.');
-    if ok {
-        Ok(())
-    } else {
-        Err(at.error(
+    if !ok {
+        at.report(
             name.span().start,
             &format!(
                 "{what} `{s}` is not allowed; use 1 to 64 letters, digits, `_`, `-` or `.`, not starting with `.`"
             ),
-        ))
+        );
     }
 }
 
-/// Turns byte offsets into `file:line:column`.
+/// Turns byte offsets into `file:line:column` and gathers the problems
+/// found, so that one pass reports them all.
 struct Locator<'a> {
     file: String,
     text: &'a str,
+    /// Byte offset (none for the whole file) and line of each problem.
+    problems: RefCell<Vec<(Option<usize>, String)>>,
 }
 
 impl Locator<'_> {
@@ -581,8 +605,29 @@ impl Locator<'_> {
         format!("{}:{line}:{col}", self.file)
     }
 
-    fn error(&self, offset: usize, msg: &str) -> Error {
-        Error::Manifest(format!("{}: {msg}", self.position(offset)))
+    /// Records a problem at a byte offset.
+    fn report(&self, offset: usize, msg: &str) {
+        let line = format!("{}: {msg}", self.position(offset));
+        self.problems.borrow_mut().push((Some(offset), line));
+    }
+
+    /// Records a problem of the whole file.
+    fn report_file(&self, msg: &str) {
+        let line = format!("{}: {msg}", self.file);
+        self.problems.borrow_mut().push((None, line));
+    }
+
+    /// Every problem found, one per line in file order (problems of the
+    /// whole file last), as one error.
+    fn finish(&self) -> Result<()> {
+        let mut problems = self.problems.borrow().clone();
+        if problems.is_empty() {
+            return Ok(());
+        }
+        // Stable: problems at one place keep the order they were found in.
+        problems.sort_by_key(|(offset, _)| offset.unwrap_or(usize::MAX));
+        let lines: Vec<String> = problems.into_iter().map(|(_, line)| line).collect();
+        Err(Error::Manifest(lines.join("\n")))
     }
 }
 
