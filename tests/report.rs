@@ -84,12 +84,18 @@ fn figures_are_well_formed_svg_and_show_the_table_numbers() {
     report::generate(&dir, &ReportOptions::default()).unwrap();
     let metrics = std::fs::read_to_string(dir.join("report/metrics.csv")).unwrap();
     let mut reader = csv::Reader::from_reader(metrics.as_bytes());
-    let mut ece = std::collections::BTreeMap::new();
+    // (dataset, family, method, metric) -> fold mean, from the table.
+    let mut table = std::collections::BTreeMap::new();
     for r in reader.records() {
         let r = r.unwrap();
-        if &r[4] == "ece" {
-            ece.insert(
-                (r[0].to_string(), r[1].to_string(), r[2].to_string()),
+        if &r[4] == "ece" || &r[4] == "brier" {
+            table.insert(
+                (
+                    r[0].to_string(),
+                    r[1].to_string(),
+                    r[2].to_string(),
+                    r[4].to_string(),
+                ),
                 r[5].parse::<f64>().unwrap(),
             );
         }
@@ -110,27 +116,49 @@ fn figures_are_well_formed_svg_and_show_the_table_numbers() {
                 .and_then(|n| n.text())
                 .unwrap();
             let data: serde_json::Value = serde_json::from_str(meta).unwrap();
-            let texts: Vec<String> = doc
+            // Every text with its position, to find the key's rows.
+            let texts: Vec<(String, String)> = doc
                 .descendants()
                 .filter(|n| n.tag_name().name() == "text")
-                .filter_map(|n| n.text().map(str::to_string))
+                .filter_map(|n| {
+                    let y = n.attribute("y")?.to_string();
+                    Some((n.text()?.trim().to_string(), y))
+                })
                 .collect();
             for curve in data["curves"].as_array().unwrap() {
                 let method = curve["method"].as_str().unwrap();
-                let want = ece[&(d.name.clone(), f.name.clone(), method.to_string())];
-                assert_eq!(
-                    curve["ece"].as_f64().unwrap(),
-                    want,
-                    "{} {} {method}",
-                    d.name,
-                    f.name
-                );
-                let legend = format!("{method}  ECE {want:.4}");
-                assert!(
-                    texts.iter().any(|t| t.trim() == legend),
-                    "{}: no legend entry {legend:?}",
-                    path.display()
-                );
+                let key = |metric: &str| {
+                    (
+                        d.name.clone(),
+                        f.name.clone(),
+                        method.to_string(),
+                        metric.to_string(),
+                    )
+                };
+                // The key beside the chart is a table: the method's name,
+                // its ECE and its Brier score on one row, equal to the
+                // metrics table.
+                let row = &texts
+                    .iter()
+                    .find(|(t, _)| t == method)
+                    .unwrap_or_else(|| panic!("{}: no key row for {method}", path.display()))
+                    .1;
+                for metric in ["ece", "brier"] {
+                    let want = table[&key(metric)];
+                    assert_eq!(
+                        curve[metric].as_f64().unwrap(),
+                        want,
+                        "{} {} {method} {metric}",
+                        d.name,
+                        f.name
+                    );
+                    let shown = format!("{want:.4}");
+                    assert!(
+                        texts.iter().any(|(t, y)| *t == shown && y == row),
+                        "{}: {method}'s row shows no {metric} {shown}",
+                        path.display()
+                    );
+                }
                 // Every plotted point is a pooled bin with a proper Wilson interval.
                 for p in curve["points"].as_array().unwrap() {
                     let (lo, o, hi) = (

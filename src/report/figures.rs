@@ -6,12 +6,16 @@
 //! Every SVG carries a `<metadata>` element with the plotted numbers as
 //! JSON, so a reader (or a test) can check the picture against the tables.
 
+use super::style::{self, Marker, MethodStyle};
 use super::{Figure, Ranking, Results};
 use crate::common::error::{Error, Result};
 use crate::experiment::summary::{fold_values, method_result};
 use crate::metrics::reliability::{wilson, Z95};
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
+use plotters::element::{ComposedElement, DashedPathElement};
 use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 use serde::Serialize;
 use std::path::Path;
 use std::sync::Once;
@@ -31,24 +35,6 @@ fn register_font() {
     });
 }
 
-/// Method colours, in manifest order; the raw row is always black.
-const PALETTE: &[RGBColor] = &[
-    RGBColor(0, 0, 0),
-    RGBColor(31, 119, 180),
-    RGBColor(230, 120, 20),
-    RGBColor(44, 160, 44),
-    RGBColor(214, 39, 40),
-    RGBColor(148, 103, 189),
-    RGBColor(140, 86, 75),
-    RGBColor(227, 119, 194),
-    RGBColor(127, 127, 127),
-    RGBColor(188, 189, 34),
-];
-
-fn colour(i: usize) -> RGBColor {
-    PALETTE[i % PALETTE.len()]
-}
-
 /// One pooled reliability point.
 #[derive(Debug, Clone, Serialize)]
 struct Point {
@@ -64,8 +50,10 @@ struct Point {
 #[derive(Debug, Clone, Serialize)]
 struct Curve {
     method: String,
-    /// Fold mean of ECE, as in the metrics table (NaN if undefined).
+    /// Fold means of ECE and the Brier score, as in the metrics table
+    /// (NaN if undefined).
     ece: f64,
+    brier: f64,
     points: Vec<Point>,
 }
 
@@ -119,15 +107,18 @@ fn panel(results: &Results, dataset: &str, family: &str) -> Panel {
                     }
                 })
                 .collect();
-            let ece = fold_values(&cells, m, "ece");
-            let ece = if ece.is_empty() {
-                f64::NAN
-            } else {
-                ece.iter().sum::<f64>() / ece.len() as f64
+            let mean = |metric: &str| {
+                let v = fold_values(&cells, m, metric);
+                if v.is_empty() {
+                    f64::NAN
+                } else {
+                    v.iter().sum::<f64>() / v.len() as f64
+                }
             };
             Curve {
                 method: m.clone(),
-                ece,
+                ece: mean("ece"),
+                brier: mean("brier"),
                 points,
             }
         })
@@ -146,149 +137,528 @@ fn panel(results: &Results, dataset: &str, family: &str) -> Panel {
 }
 
 type Drawn<DB> = std::result::Result<(), DrawingAreaErrorKind<<DB as DrawingBackend>::ErrorType>>;
+type Chart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
 
-/// Draws one diagram; `full` adds the intervals, the legend and the
-/// histogram beneath.
+/// Tint below the diagonal (forecasts above observed frequencies).
+const TINT_HIGH: RGBColor = RGBColor(253, 240, 228);
+/// Tint above the diagonal (forecasts below observed frequencies).
+const TINT_LOW: RGBColor = RGBColor(232, 241, 252);
+const INK: RGBColor = RGBColor(60, 60, 60);
+
+/// The dotted diagonal's dash and gap, in pixels.
+const DIAGONAL: (u32, u32) = (2, 4);
+
+/// How dashed lines are drawn. Plotters draws a dashed line as one short
+/// path per dash, which would triple an SVG's size; so for SVG a dashed
+/// line is drawn once, solid, with an opacity just below 1 that encodes
+/// its pattern, and [`native_dashes`] then turns that into a
+/// `stroke-dasharray`. Bitmaps draw each dash.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Dashes {
+    Tagged,
+    Drawn,
+}
+
+/// Opacities above this (and below 1) are dash tags; every real opacity a
+/// figure uses is at most 0.9.
+const TAG_FLOOR: f64 = 1.0 - 4096.0 / 65536.0;
+
+/// The opacity that tags a dash pattern: 1 - n/65536 is a short binary
+/// fraction, so it prints exactly and reads back exactly.
+fn dash_tag((dash, gap): (u32, u32)) -> f64 {
+    1.0 - f64::from(dash * 64 + gap + 1) / 65536.0
+}
+
+/// The pattern an opacity tags, if it is a tag.
+fn tagged_dash(opacity: f64) -> Option<(u32, u32)> {
+    if !(opacity > TAG_FLOOR && opacity < 1.0) {
+        return None;
+    }
+    let n = ((1.0 - opacity) * 65536.0).round() as u32 - 1;
+    Some((n / 64, n % 64))
+}
+
+/// Rewrites tagged polylines of an SVG as fully opaque dashed lines.
+fn native_dashes(svg: &str) -> String {
+    const KEY: &str = "opacity=\"";
+    let mut out = String::with_capacity(svg.len());
+    let mut rest = svg;
+    while let Some(i) = rest.find(KEY) {
+        let (head, tail) = rest.split_at(i + KEY.len());
+        out.push_str(head);
+        let end = tail.find('"').unwrap_or(tail.len());
+        let value = &tail[..end];
+        match value.parse::<f64>().ok().and_then(tagged_dash) {
+            Some((dash, gap)) => {
+                out.push_str(&format!("1\" stroke-dasharray=\"{dash} {gap}"));
+            }
+            None => out.push_str(value),
+        }
+        rest = &tail[end..];
+    }
+    out.push_str(rest);
+    out
+}
+
+/// A line in chart coordinates, solid or dashed.
+fn chart_line<DB: DrawingBackend>(
+    chart: &mut Chart<'_, DB>,
+    pts: Vec<(f64, f64)>,
+    pattern: Option<(u32, u32)>,
+    stroke: (RGBColor, u32),
+    dashes: Dashes,
+) -> Drawn<DB> {
+    let (colour, width) = stroke;
+    match (pattern, dashes) {
+        (None, _) => chart.draw_series(std::iter::once(PathElement::new(
+            pts,
+            colour.stroke_width(width),
+        )))?,
+        (Some(p), Dashes::Tagged) => chart.draw_series(std::iter::once(PathElement::new(
+            pts,
+            colour.mix(dash_tag(p)).stroke_width(width),
+        )))?,
+        (Some((dash, gap)), Dashes::Drawn) => chart.draw_series(std::iter::once(
+            DashedPathElement::new(pts, dash, gap, colour.stroke_width(width)),
+        ))?,
+    };
+    Ok(())
+}
+
+/// The two half-planes of a reliability chart, tinted, and the diagonal
+/// of perfect calibration, dotted.
+fn backdrop<DB: DrawingBackend>(chart: &mut Chart<'_, DB>, dashes: Dashes) -> Drawn<DB> {
+    chart.draw_series([
+        Polygon::new(vec![(0.0, 0.0), (1.0, 0.0), (1.0, 1.0)], TINT_HIGH.filled()),
+        Polygon::new(vec![(0.0, 0.0), (0.0, 1.0), (1.0, 1.0)], TINT_LOW.filled()),
+    ])?;
+    chart_line(
+        chart,
+        vec![(0.0, 0.0), (1.0, 1.0)],
+        Some(DIAGONAL),
+        (RGBColor(120, 120, 120), 1),
+        dashes,
+    )
+}
+
+/// A marker's outline around its centre, in pixels (y down).
+fn marker_outline(shape: Marker, r: i32) -> Vec<(i32, i32)> {
+    let h = r * 7 / 10;
+    // Arms of a plus or a cross are about a third of the marker wide.
+    let t = (r / 3).max(1);
+    match shape {
+        Marker::Circle => (0..16)
+            .map(|k| {
+                let a = f64::from(k) * std::f64::consts::PI / 8.0;
+                let r = f64::from(r);
+                ((r * a.cos()).round() as i32, (r * a.sin()).round() as i32)
+            })
+            .collect(),
+        Marker::Square => vec![(-h, -h), (h, -h), (h, h), (-h, h)],
+        Marker::TriangleUp => vec![(0, -r), (r, h), (-r, h)],
+        Marker::TriangleDown => vec![(0, r), (r, -h), (-r, -h)],
+        Marker::Diamond => vec![(0, -r), (r, 0), (0, r), (-r, 0)],
+        Marker::Plus => vec![
+            (-t, -r),
+            (t, -r),
+            (t, -t),
+            (r, -t),
+            (r, t),
+            (t, t),
+            (t, r),
+            (-t, r),
+            (-t, t),
+            (-r, t),
+            (-r, -t),
+            (-t, -t),
+        ],
+        Marker::Cross => {
+            // The plus turned by 45 degrees.
+            let s = std::f64::consts::FRAC_1_SQRT_2;
+            marker_outline(Marker::Plus, r)
+                .into_iter()
+                .map(|(x, y)| {
+                    let (x, y) = (f64::from(x), f64::from(y));
+                    (((x - y) * s).round() as i32, ((x + y) * s).round() as i32)
+                })
+                .collect()
+        }
+    }
+}
+
+type MarkerElement<C, DB> = ComposedElement<C, DB, Polygon<(i32, i32)>, PathElement<(i32, i32)>>;
+
+/// A marker of radius `r` pixels centred on `at`, in the method's shape:
+/// a translucent fill under a solid outline, so overlapping markers show.
+fn marker<C, DB: DrawingBackend>(at: C, s: &MethodStyle, r: i32) -> MarkerElement<C, DB> {
+    let outline = marker_outline(s.marker, r);
+    let mut closed = outline.clone();
+    closed.push(outline[0]);
+    EmptyElement::at(at)
+        + Polygon::new(outline, s.colour.mix(0.3).filled())
+        + PathElement::new(closed, s.colour.stroke_width(1))
+}
+
+/// A short stretch of a method's line with its marker, as in a key.
+fn key_sample<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    (x, y): (i32, i32),
+    s: &MethodStyle,
+    dashes: Dashes,
+) -> Drawn<DB> {
+    let pts = vec![(x, y), (x + 30, y)];
+    match (s.dash, dashes) {
+        (None, _) => area.draw(&PathElement::new(pts, s.colour.stroke_width(2)))?,
+        (Some(p), Dashes::Tagged) => area.draw(&PathElement::new(
+            pts,
+            s.colour.mix(dash_tag(p)).stroke_width(2),
+        ))?,
+        (Some((dash, gap)), Dashes::Drawn) => area.draw(&DashedPathElement::new(
+            pts,
+            dash,
+            gap,
+            s.colour.stroke_width(2),
+        ))?,
+    }
+    area.draw(&marker((x + 15, y), s, 5))
+}
+
+/// Marker radius in pixels for a bin of `count` rows: the marker's area,
+/// not its width, grows with the count.
+fn radius(count: usize, largest: usize) -> i32 {
+    let share = count as f64 / largest.max(1) as f64;
+    (2.5 + 7.5 * share.sqrt()).round() as i32
+}
+
+fn number(v: f64) -> String {
+    if v.is_finite() {
+        format!("{v:.4}")
+    } else {
+        "–".to_string()
+    }
+}
+
+/// The full reliability figure: the chart on the left with a strip of raw
+/// row counts per bin beneath it, and on the right a key that doubles as a
+/// table of each method's ECE and Brier score.
 fn draw_panel<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     p: &Panel,
-    full: bool,
+    dashes: Dashes,
 ) -> Drawn<DB> {
-    let (top, bottom) = if full {
-        let (w, h) = area.dim_in_pixel();
-        let _ = w;
-        area.split_vertically(h * 3 / 4)
-    } else {
-        (area.clone(), area.clone())
-    };
-    let title = format!("{} / {}", p.dataset, p.family);
+    let (w, h) = area.dim_in_pixel();
+    let (left, right) = area.split_horizontally(w - 270);
+    let (top, strip) = left.split_vertically(h - 46);
     let mut chart = ChartBuilder::on(&top)
-        .caption(&title, (FONT, if full { 18 } else { 13 }))
-        .margin(if full { 10 } else { 4 })
-        .x_label_area_size(if full { 35 } else { 18 })
-        .y_label_area_size(if full { 50 } else { 28 })
+        .caption(format!("{} / {}", p.dataset, p.family), (FONT, 18))
+        .margin(10)
+        .margin_bottom(0)
+        .x_label_area_size(38)
+        .y_label_area_size(52)
         .build_cartesian_2d(0f64..1f64, 0f64..1f64)?;
-    let mut mesh = chart.configure_mesh();
-    mesh.light_line_style(TRANSPARENT)
-        .bold_line_style(RGBColor(225, 225, 225))
-        .label_style((FONT, if full { 12 } else { 9 }));
-    if full {
-        mesh.x_desc(format!("mean forecast ({})", p.forecast))
-            .y_desc("observed frequency");
+    backdrop(&mut chart, dashes)?;
+    chart
+        .configure_mesh()
+        .light_line_style(TRANSPARENT)
+        .bold_line_style(WHITE.mix(0.9))
+        .label_style((FONT, 12))
+        .x_desc(format!("mean forecast ({})", p.forecast))
+        .y_desc("observed frequency")
+        .draw()?;
+    let (high, low) = if p.forecast.starts_with("top-label") {
+        ("over-confident", "under-confident")
     } else {
-        mesh.x_labels(3).y_labels(3);
-    }
-    mesh.draw()?;
-    chart.draw_series(LineSeries::new(
-        [(0.0, 0.0), (1.0, 1.0)],
-        RGBColor(170, 170, 170).stroke_width(1),
-    ))?;
-    for (i, c) in p.curves.iter().enumerate() {
-        let col = colour(i);
+        ("forecasts too high", "forecasts too low")
+    };
+    let note = (FONT, 12).into_font().color(&INK);
+    chart.draw_series([
+        Text::new(
+            high,
+            (0.97, 0.03),
+            note.pos(Pos::new(HPos::Right, VPos::Bottom)),
+        ),
+        Text::new(low, (0.03, 0.97), note.pos(Pos::new(HPos::Left, VPos::Top))),
+    ])?;
+    let largest = p
+        .curves
+        .iter()
+        .flat_map(|c| &c.points)
+        .map(|q| q.count)
+        .max()
+        .unwrap_or(1);
+    for c in &p.curves {
+        let s = style::of(&c.method);
         let pts: Vec<(f64, f64)> = c
             .points
             .iter()
             .map(|q| (q.mean_forecast, q.observed))
             .collect();
-        let series = chart.draw_series(LineSeries::new(
-            pts.clone(),
-            col.stroke_width(if i == 0 { 2 } else { 1 }),
-        ))?;
-        if full {
-            let ece = if c.ece.is_finite() {
-                format!("{:.4}", c.ece)
-            } else {
-                "–".to_string()
-            };
-            series
-                .label(format!("{}  ECE {ece}", c.method))
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 16, y)], col.stroke_width(2))
-                });
-            chart.draw_series(c.points.iter().map(|q| {
-                PathElement::new(
-                    vec![
-                        (q.mean_forecast, q.wilson_low),
-                        (q.mean_forecast, q.wilson_high),
-                    ],
-                    col.mix(0.5).stroke_width(1),
-                )
-            }))?;
-            chart.draw_series(
-                pts.iter()
-                    .map(|&(x, y)| Circle::new((x, y), 2, col.filled())),
-            )?;
-        }
+        let width = if c.method == "none" { 2 } else { 1 };
+        chart_line(&mut chart, pts.clone(), s.dash, (s.colour, width), dashes)?;
+        let whisker = s.colour.mix(0.55).stroke_width(1);
+        chart.draw_series(c.points.iter().map(|q| {
+            let x = q.mean_forecast;
+            PathElement::new(vec![(x, q.wilson_low), (x, q.wilson_high)], whisker)
+        }))?;
+        // Caps, in pixels, at both ends of each interval.
+        chart.draw_series(c.points.iter().flat_map(|q| {
+            [q.wilson_low, q.wilson_high].map(|y| {
+                EmptyElement::at((q.mean_forecast, y))
+                    + PathElement::new(vec![(-3, 0), (3, 0)], whisker)
+            })
+        }))?;
+        chart.draw_series(
+            c.points
+                .iter()
+                .map(|q| marker((q.mean_forecast, q.observed), &s, radius(q.count, largest))),
+        )?;
     }
-    if !full {
-        return Ok(());
-    }
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font((FONT, 11))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(200, 200, 200))
-        .draw()?;
-    // The histogram of raw forecasts, on the same x axis.
+    draw_strip(&strip, p)?;
+    draw_key(&right, p, dashes)
+}
+
+/// Raw rows per bin as a strip of cells under the chart's x axis, each
+/// shaded by its count and, where they fit, labelled with it.
+fn draw_strip<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &Panel) -> Drawn<DB> {
     let bins = p.bins.max(1);
-    let raw = p.curves.first();
     let mut counts = vec![0usize; bins];
-    if let Some(raw) = raw {
+    if let Some(raw) = p.curves.first() {
         for q in &raw.points {
             counts[q.bin] = q.count;
         }
     }
-    let top_count = counts.iter().copied().max().unwrap_or(0).max(1) as f64;
-    let mut hist = ChartBuilder::on(&bottom)
+    let top = counts.iter().copied().max().unwrap_or(0).max(1) as f64;
+    let mut strip = ChartBuilder::on(area)
         .margin(10)
-        .margin_top(0)
-        .x_label_area_size(20)
-        .y_label_area_size(50)
-        .build_cartesian_2d(0f64..1f64, 0f64..top_count * 1.05)?;
-    hist.configure_mesh()
-        .disable_mesh()
-        .y_labels(3)
-        .y_label_formatter(&|v| format!("{v:.0}"))
-        .label_style((FONT, 10))
-        .y_desc("raw rows")
-        .draw()?;
-    hist.draw_series(
-        counts
-            .iter()
-            .enumerate()
-            .filter(|(_, &c)| c > 0)
-            .map(|(b, &c)| {
-                let w = 1.0 / bins as f64;
-                Rectangle::new(
-                    [(b as f64 * w, 0.0), ((b + 1) as f64 * w, c as f64)],
-                    RGBColor(150, 150, 150).filled(),
-                )
-            }),
-    )?;
+        .margin_top(4)
+        .margin_bottom(8)
+        .y_label_area_size(52)
+        .build_cartesian_2d(0f64..1f64, 0f64..1f64)?;
+    let width = 1.0 / bins as f64;
+    strip.draw_series(counts.iter().enumerate().map(|(b, &c)| {
+        let shade = 240 - (150.0 * (c as f64 / top).sqrt()).round() as u8;
+        Rectangle::new(
+            [(b as f64 * width, 0.0), ((b + 1) as f64 * width, 1.0)],
+            RGBColor(shade, shade, shade).filled(),
+        )
+    }))?;
+    if bins <= 20 {
+        let centre = Pos::new(HPos::Center, VPos::Center);
+        let dark = (FONT, 9).into_font().color(&BLACK).pos(centre);
+        let light = (FONT, 9).into_font().color(&WHITE).pos(centre);
+        strip.draw_series(
+            counts
+                .iter()
+                .enumerate()
+                .filter(|(_, &c)| c > 0)
+                .map(|(b, &c)| {
+                    // White on the darker half of the shades.
+                    let style = if c as f64 / top > 0.25 { &light } else { &dark };
+                    Text::new(
+                        c.to_string(),
+                        ((b as f64 + 0.5) * width, 0.5),
+                        style.clone(),
+                    )
+                }),
+        )?;
+    }
+    area.draw(&Text::new(
+        "raw rows",
+        (6, 10),
+        (FONT, 10).into_font().color(&INK),
+    ))
+}
+
+/// The key beside the chart: each method's line and marker with its ECE
+/// and Brier score, then how to read the marks.
+fn draw_key<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    p: &Panel,
+    dashes: Dashes,
+) -> Drawn<DB> {
+    let head = (FONT, 12).into_font().color(&INK);
+    let cell = (FONT, 12).into_font().color(&BLACK);
+    let row_y = |i: usize| 70 + 24 * i as i32;
+    area.draw(&Text::new(
+        "method",
+        (50, 48),
+        head.pos(Pos::new(HPos::Left, VPos::Center)),
+    ))?;
+    area.draw(&Text::new(
+        "ECE",
+        (196, 48),
+        head.pos(Pos::new(HPos::Right, VPos::Center)),
+    ))?;
+    area.draw(&Text::new(
+        "Brier",
+        (256, 48),
+        head.pos(Pos::new(HPos::Right, VPos::Center)),
+    ))?;
+    area.draw(&PathElement::new(
+        vec![(8, 58), (258, 58)],
+        INK.stroke_width(1),
+    ))?;
+    for (i, c) in p.curves.iter().enumerate() {
+        let y = row_y(i);
+        key_sample(area, (10, y), &style::of(&c.method), dashes)?;
+        area.draw(&Text::new(
+            c.method.clone(),
+            (50, y),
+            cell.pos(Pos::new(HPos::Left, VPos::Center)),
+        ))?;
+        area.draw(&Text::new(
+            number(c.ece),
+            (196, y),
+            cell.pos(Pos::new(HPos::Right, VPos::Center)),
+        ))?;
+        area.draw(&Text::new(
+            number(c.brier),
+            (256, y),
+            cell.pos(Pos::new(HPos::Right, VPos::Center)),
+        ))?;
+    }
+    let small = (FONT, 11).into_font().color(&INK);
+    let mut y = row_y(p.curves.len()) + 10;
+    for line in [
+        "ECE and Brier: means over the outer",
+        "folds, as in the metrics table.",
+        "",
+        "Marker area: rows in the bin.",
+        "Whiskers: 95% Wilson intervals.",
+        "Strip: raw rows per bin.",
+        "Dotted diagonal: perfect calibration;",
+        "warm below it, cool above it.",
+    ] {
+        area.draw(&Text::new(
+            line,
+            (10, y),
+            small.pos(Pos::new(HPos::Left, VPos::Center)),
+        ))?;
+        y += 16;
+    }
     Ok(())
 }
 
-/// The grid: datasets as columns, families as rows, a legend strip on top.
+/// A small panel of the grid: the same marks without intervals or counts.
+fn draw_small_panel<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    p: &Panel,
+    title: &str,
+    dashes: Dashes,
+) -> Drawn<DB> {
+    let mut chart = ChartBuilder::on(area)
+        .caption(title, (FONT, 13))
+        .margin(6)
+        .x_label_area_size(18)
+        .y_label_area_size(28)
+        .build_cartesian_2d(0f64..1f64, 0f64..1f64)?;
+    backdrop(&mut chart, dashes)?;
+    chart
+        .configure_mesh()
+        .light_line_style(TRANSPARENT)
+        .bold_line_style(WHITE.mix(0.9))
+        .label_style((FONT, 9))
+        .x_labels(3)
+        .y_labels(3)
+        .draw()?;
+    for c in &p.curves {
+        let s = style::of(&c.method);
+        let pts: Vec<(f64, f64)> = c
+            .points
+            .iter()
+            .map(|q| (q.mean_forecast, q.observed))
+            .collect();
+        let width = if c.method == "none" { 2 } else { 1 };
+        chart_line(&mut chart, pts.clone(), s.dash, (s.colour, width), dashes)?;
+        chart.draw_series(pts.iter().map(|&at| marker(at, &s, 2)))?;
+    }
+    Ok(())
+}
+
+/// Side of one grid panel, in pixels.
+const CELL: u32 = 240;
+/// Width of one key entry in the grid's key, in pixels.
+const KEY_ENTRY: u32 = 150;
+
+/// How the grid lays out: datasets as columns and families as rows when
+/// there are several datasets; with one dataset, the families wrap into a
+/// near-square block so the figure is not a one-panel-wide strip.
+#[derive(Debug)]
+struct GridLayout {
+    columns: usize,
+    rows: usize,
+    width: u32,
+    key_lines: usize,
+}
+
+impl GridLayout {
+    fn new(datasets: usize, families: usize, methods: usize) -> GridLayout {
+        let panels = datasets * families;
+        let columns = if datasets > 1 {
+            datasets
+        } else {
+            (families as f64).sqrt().ceil().max(1.0) as usize
+        };
+        let rows = panels.div_ceil(columns.max(1));
+        // Wide enough for a legible key even with a single panel.
+        let width = (CELL * columns as u32).max(2 * KEY_ENTRY + 20);
+        let per_line = ((width - 20) / KEY_ENTRY).max(1) as usize;
+        GridLayout {
+            columns,
+            rows,
+            width,
+            key_lines: methods.div_ceil(per_line),
+        }
+    }
+
+    fn key_height(&self) -> u32 {
+        12 + 22 * self.key_lines as u32
+    }
+
+    fn size(&self) -> (u32, u32) {
+        (self.width, self.key_height() + CELL * self.rows as u32)
+    }
+}
+
+/// The grid: a key on top that wraps to the figure's width, then one small
+/// panel per (dataset, family).
 fn draw_grid<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     panels: &[Panel],
     methods: &[String],
-    columns: usize,
+    layout: &GridLayout,
+    single_dataset: bool,
+    dashes: Dashes,
 ) -> Drawn<DB> {
-    let (strip, body) = area.split_vertically(30);
+    let (key, body) = area.split_vertically(layout.key_height());
+    let per_line = ((layout.width - 20) / KEY_ENTRY).max(1) as usize;
     for (i, m) in methods.iter().enumerate() {
-        let x = 10 + 130 * i as i32;
-        strip.draw(&PathElement::new(
-            vec![(x, 15), (x + 20, 15)],
-            colour(i).stroke_width(2),
+        let x = 10 + (KEY_ENTRY * (i % per_line) as u32) as i32;
+        let y = 16 + 22 * (i / per_line) as i32;
+        key_sample(&key, (x, y), &style::of(m), dashes)?;
+        key.draw(&Text::new(
+            m.clone(),
+            (x + 38, y),
+            (FONT, 12)
+                .into_font()
+                .color(&BLACK)
+                .pos(Pos::new(HPos::Left, VPos::Center)),
         ))?;
-        strip.draw(&Text::new(m.clone(), (x + 25, 8), (FONT, 12)))?;
     }
-    let rows = panels.len().div_ceil(columns.max(1));
-    let cells = body.split_evenly((rows, columns.max(1)));
+    let used = CELL * layout.columns as u32;
+    let body = if used < layout.width {
+        body.split_horizontally(used).0
+    } else {
+        body
+    };
+    let cells = body.split_evenly((layout.rows, layout.columns.max(1)));
     for (cell, p) in cells.iter().zip(panels) {
-        draw_panel(cell, p, false)?;
+        let title = if single_dataset {
+            p.family.clone()
+        } else {
+            format!("{} / {}", p.dataset, p.family)
+        };
+        draw_small_panel(cell, p, &title, dashes)?;
     }
     Ok(())
 }
@@ -396,7 +766,7 @@ fn svg_of(
         root.present()
             .map_err(|e| Error::Io(format!("cannot draw a figure: {e}")))?;
     }
-    Ok(s)
+    Ok(native_dashes(&s))
 }
 
 type BitmapDraw<'a> =
@@ -459,25 +829,33 @@ pub fn all(results: &Results, ranking: Option<&Ranking>) -> Result<Vec<Figure>> 
     }
     let bins = results.exp.evaluation.bins;
     for p in &panels {
-        let size = (560, 620);
+        let size = (860, 620);
         let q = p.clone();
-        let svg = svg_of(size, |a| draw_panel(a, p, true).map_err(|e| e.to_string()))?;
+        let svg = svg_of(size, |a| {
+            draw_panel(a, p, Dashes::Tagged).map_err(|e| e.to_string())
+        })?;
         out.push(Figure {
             path: format!("figures/reliability/{}--{}.svg", slug(&p.dataset), slug(&p.family)),
             caption: format!(
-                "Reliability of {} on {}: {} against observed frequency in {bins} equal-width bins, pooled over the outer folds, with 95% Wilson intervals; the raw model in black, each calibration method in colour; raw forecasts' histogram beneath. Legend ECE values are the fold means from the metrics table.",
+                "Reliability of {} on {}: {} against observed frequency in {bins} equal-width bins, pooled over the outer folds. Each method has its own colour, dash pattern and marker (the raw model solid near-black); marker area grows with the rows in the bin, whiskers are 95% Wilson intervals, and the strip beneath counts the raw forecasts per bin. The table beside the chart gives each method's ECE and Brier score as fold means, as in the metrics table.",
                 p.family, p.dataset, p.forecast
             ),
             svg: with_metadata(svg, p),
-            png: Box::new(move |path| png_of(path, size, &|a| draw_panel(a, &q, true).map_err(|e| e.to_string()))),
+            png: Box::new(move |path| png_of(path, size, &|a| draw_panel(a, &q, Dashes::Drawn).map_err(|e| e.to_string()))),
         });
     }
-    let columns = results.exp.datasets.len();
-    let rows = results.exp.families.len();
-    let size = ((230 * columns) as u32, (230 * rows + 30) as u32);
     let methods = results.exp.methods.clone();
+    let single = results.exp.datasets.len() == 1;
+    let layout = GridLayout::new(
+        results.exp.datasets.len(),
+        results.exp.families.len(),
+        methods.len(),
+    );
+    let size = layout.size();
+    // Panels in reading order: with several datasets, datasets across and
+    // families down.
     let grid_svg = svg_of(size, |a| {
-        draw_grid(a, &panels, &methods, columns).map_err(|e| e.to_string())
+        draw_grid(a, &panels, &methods, &layout, single, Dashes::Tagged).map_err(|e| e.to_string())
     })?;
     let mixed = results
         .exp
@@ -493,7 +871,12 @@ pub fn all(results: &Results, ranking: Option<&Ranking>) -> Result<Vec<Figure>> 
     out.push(Figure {
         path: "figures/reliability-grid.svg".into(),
         caption: format!(
-            "All reliability curves: datasets as columns, families as rows, {bins} equal-width bins.{}",
+            "All reliability curves: {}, {bins} equal-width bins; each method keeps its colour, dash pattern and marker.{}",
+            if single {
+                "one panel per family"
+            } else {
+                "datasets as columns, families as rows"
+            },
             if mixed {
                 " Binary panels plot P(positive class), multiclass panels the top-label confidence."
             } else {
@@ -502,7 +885,7 @@ pub fn all(results: &Results, ranking: Option<&Ranking>) -> Result<Vec<Figure>> 
         ),
         svg: with_metadata(grid_svg, &panels),
         png: Box::new(move |path| {
-            png_of(path, size, &|a| draw_grid(a, &grid_panels, &methods, columns).map_err(|e| e.to_string()))
+            png_of(path, size, &|a| draw_grid(a, &grid_panels, &methods, &layout, single, Dashes::Drawn).map_err(|e| e.to_string()))
         }),
     });
     if let Some(r) = ranking {
@@ -539,6 +922,54 @@ pub fn all(results: &Results, ranking: Option<&Ranking>) -> Result<Vec<Figure>> 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_grid_lays_out_one_dataset_as_well_as_many() {
+        for (datasets, families, methods) in [(1, 1, 7), (1, 10, 7), (1, 3, 2), (24, 10, 7)] {
+            let g = GridLayout::new(datasets, families, methods);
+            let (w, h) = g.size();
+            // Every panel has a square cell, and every key entry a place.
+            assert!(g.columns * g.rows >= datasets * families);
+            assert!(g.rows * CELL as usize + g.key_height() as usize == h as usize);
+            let per_line = ((w - 20) / KEY_ENTRY) as usize;
+            assert!(per_line * g.key_lines >= methods, "{datasets} {families}");
+            assert!(w >= 2 * KEY_ENTRY + 20);
+            if datasets == 1 {
+                // A near-square block, never a one-panel strip.
+                assert!(g.columns.abs_diff(g.rows) <= 1, "{families}: {g:?}");
+            } else {
+                assert_eq!((g.columns, g.rows), (datasets, families));
+            }
+        }
+    }
+
+    #[test]
+    fn dash_tags_become_native_dash_arrays() {
+        let mut patterns = vec![DIAGONAL];
+        patterns.extend(
+            crate::calibrate::METHODS
+                .iter()
+                .filter_map(|m| style::of(m.name).dash),
+        );
+        for p in patterns {
+            let tag = dash_tag(p);
+            assert!(tag > TAG_FLOOR && tag < 1.0);
+            // The SVG backend writes the opacity with `{}`.
+            let svg = format!("<polyline fill=\"none\" opacity=\"{tag}\" stroke=\"#FF8800\"/>");
+            assert_eq!(
+                native_dashes(&svg),
+                format!(
+                    "<polyline fill=\"none\" opacity=\"1\" stroke-dasharray=\"{} {}\" stroke=\"#FF8800\"/>",
+                    p.0, p.1
+                )
+            );
+        }
+        // Real opacities pass through untouched.
+        for o in ["1", "0.9", "0.3", "0.55"] {
+            let svg = format!("<rect opacity=\"{o}\"/>");
+            assert_eq!(native_dashes(&svg), svg);
+        }
+    }
 
     #[test]
     fn cliques_join_pairs_within_the_difference() {

@@ -4,14 +4,16 @@
 //! `records.jsonl` and `run.json`, so a report can be rebuilt at any time
 //! and gives the same bytes for the same results.
 //!
-//! May import `common`, `metrics`, `export` and `experiment` (the manifest,
-//! store records and summary it reads back); `gate` and `commands` build
-//! on it.
+//! May import `common`, `metrics`, `export`, `calibrate` (for the order of
+//! methods, which fixes their look in figures) and `experiment` (the
+//! manifest, store records and summary it reads back); `gate` and
+//! `commands` build on it.
 
 mod diagnosis;
 mod figures;
 mod html;
 mod ranking;
+mod style;
 mod tables;
 
 pub use diagnosis::{diagnose, Diagnosis, Shape};
