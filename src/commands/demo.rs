@@ -7,7 +7,7 @@ use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::data::demo;
 use std::fmt::Write as _;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// The arguments of `candor demo`.
 #[derive(Debug, Clone, clap::Args)]
@@ -30,8 +30,16 @@ pub fn execute(args: DemoArgs, out: &mut Output) -> Result<Status> {
     let generated = demo::generate(args.rows, args.seed);
     std::fs::create_dir_all(&args.out)
         .map_err(|e| Error::io(&args.out, "create the folder", &e))?;
-    let predictions = args.out.join("deliveries.csv");
-    let records = args.out.join("parcels.csv");
+    // Files in the current folder are named plainly, as the tour shows them.
+    let place = |name: &str| {
+        if args.out == Path::new(".") {
+            PathBuf::from(name)
+        } else {
+            args.out.join(name)
+        }
+    };
+    let predictions = place("deliveries.csv");
+    let records = place("parcels.csv");
     write_atomic(&predictions, generated.csv().as_bytes())?;
     write_atomic(&records, generated.features_csv().as_bytes())?;
     let _ = writeln!(
