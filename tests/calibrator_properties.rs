@@ -227,3 +227,111 @@ fn platt_beats_isotonic_on_small_calibration_sets_and_isotonic_catches_up() {
         "at 5000: {large} (40: {small})"
     );
 }
+
+/// Out-of-fold log-odds as naive Bayes gives them on small, nearly
+/// separable data: a bulk of moderate scores that rank the rows well, and a
+/// few rows with enormous log-odds, most of them of the wrong sign.
+fn outlying_log_odds(seed: u64) -> (Vec<f64>, Vec<usize>) {
+    let mut rng = SplitMix64::new(seed);
+    let mut z = Vec::new();
+    let mut y = Vec::new();
+    for i in 0..200 {
+        let positive = i % 4 == 0;
+        z.push(if positive { 2.5 } else { -2.5 } + 4.0 * (rng.unit() - 0.5));
+        y.push(usize::from(positive));
+    }
+    // Six huge scores: five point the wrong way.
+    for (score, label) in [(3e8, 0), (8e5, 0), (4e6, 0), (-2e9, 1), (-6e5, 1), (1e7, 1)] {
+        z.push(score);
+        y.push(label);
+    }
+    (z, y)
+}
+
+#[test]
+fn platt_never_reverses_the_ranking_of_extreme_scores() {
+    // Platt (1999) fits p = 1 / (1 + exp(A f + B)) by maximum likelihood; on
+    // scores like these the unconstrained optimum has the wrong sign of A,
+    // so the "calibrated" forecasts would rank every row backwards
+    // (AUC -> 1 - AUC). The map must keep the order of the scores, and say
+    // what it did.
+    for seed in 1..=5 {
+        let (z, y) = outlying_log_odds(seed);
+        let scores = binary_scores(&z);
+        let cal = fit("platt", &scores, &y, 2);
+        let p = cal.apply(&scores);
+        let raw_auc = auc(&Forecasts::new(scores.proba.view(), &y));
+        let cal_auc = auc(&Forecasts::new(p.view(), &y));
+        assert!(
+            cal_auc >= raw_auc - 1e-12,
+            "seed {seed}: AUC {raw_auc} -> {cal_auc}"
+        );
+        let mut order: Vec<usize> = (0..z.len()).collect();
+        order.sort_by(|&a, &b| z[a].total_cmp(&z[b]));
+        for w in order.windows(2) {
+            assert!(p[[w[0], 1]] <= p[[w[1], 1]] + 1e-15, "seed {seed}");
+        }
+        let warnings = cal.warnings().join("; ");
+        assert!(warnings.contains("clipped"), "seed {seed}: {warnings}");
+    }
+}
+
+#[test]
+fn a_reversed_platt_slope_is_held_at_zero_with_a_warning() {
+    // Scores that rank the classes backwards everywhere: the slope is
+    // constrained to keep the order, so the best it can do is the base rate.
+    let z: Vec<f64> = (0..100).map(|i| f64::from(i) / 10.0 - 5.0).collect();
+    let y: Vec<usize> = (0..100).map(|i| usize::from(i % 10 < 7 - i / 20)).collect();
+    let scores = binary_scores(&z);
+    let cal = fit("platt", &scores, &y, 2);
+    let p = cal.apply(&scores);
+    assert!((p[[0, 1]] - p[[99, 1]]).abs() < 1e-12, "constant forecasts");
+    let rate = y.iter().sum::<usize>() as f64 / y.len() as f64;
+    assert!((p[[0, 1]] - rate).abs() < 0.02, "{} vs {rate}", p[[0, 1]]);
+    assert!(
+        cal.warnings().join("; ").contains("slope"),
+        "{:?}",
+        cal.warnings()
+    );
+    // Temperature scaling keeps the order by construction (T > 0): on the
+    // same scores it stops at its bound and says so.
+    let t = fit("temperature", &scores, &y, 2);
+    let q = t.apply(&scores);
+    for i in 1..100 {
+        assert!(q[[i - 1, 1]] <= q[[i, 1]] + 1e-15);
+    }
+    assert!(!t.warnings().is_empty());
+}
+
+#[test]
+fn beta_falls_back_on_two_valued_scores() {
+    // Kull, Silva Filho & Flach (2017) fit three parameters; scores with two
+    // distinct values (a small tree, kNN with k = 1) cannot identify them.
+    // The fit must not fail the cell: it fits what the data can carry and
+    // records a warning.
+    let s: Vec<f64> = (0..60).map(|i| if i < 30 { 0.2 } else { 0.9 }).collect();
+    let y: Vec<usize> = (0..60)
+        .map(|i| usize::from(if i < 30 { i % 5 == 0 } else { i % 5 != 0 }))
+        .collect();
+    let proba = Array2::from_shape_fn((60, 2), |(i, j)| if j == 1 { s[i] } else { 1.0 - s[i] });
+    let scores = Scores {
+        proba,
+        native: None,
+    };
+    let cal = fit("beta", &scores, &y, 2);
+    let p = cal.apply(&scores);
+    // The two observed frequencies, as a saturated monotone fit gives them.
+    assert!((p[[0, 1]] - 0.2).abs() < 1e-6, "{}", p[[0, 1]]);
+    assert!((p[[59, 1]] - 0.8).abs() < 1e-6, "{}", p[[59, 1]]);
+    assert!(
+        cal.warnings().join("; ").contains("two distinct"),
+        "{:?}",
+        cal.warnings()
+    );
+    // Separated two-valued scores: smoothed targets, still no failure.
+    let y: Vec<usize> = (0..60).map(|i| usize::from(i >= 30)).collect();
+    let cal = fit("beta", &scores, &y, 2);
+    let p = cal.apply(&scores);
+    assert!(p[[0, 1]] < 0.1 && p[[59, 1]] > 0.9);
+    assert!(!cal.warnings().is_empty());
+}
