@@ -14,9 +14,16 @@
 //! smoothed targets, (N+ + 1)/(N+ + 2) for positives and 1/(N- + 2) for
 //! negatives, which always have a finite maximum, and a warning is
 //! recorded.
+//!
+//! Scores with fewer than three distinct values (a shallow tree, kNN with
+//! k = 1) cannot identify three parameters: the map is then fitted with
+//! a and c alone (b = 0), which through two points is the saturated
+//! monotone fit, and a warning is recorded. Should every fit fail, the map
+//! is the constant observed positive rate, again with a warning, so a
+//! degenerate fold never stops a run.
 
 use super::{BinaryCalibrator, BinaryMap, Input};
-use crate::common::error::{Error, Result};
+use crate::common::error::Result;
 use crate::common::glm::logistic;
 
 const CLIP: f64 = 1e-12;
@@ -32,12 +39,19 @@ pub struct BetaMap {
     pub c: f64,
     /// Whether the fit fell back to Platt's smoothed targets.
     pub smoothed: bool,
+    /// Why the full three-parameter fit was not used, if it was not.
+    pub reduced: Option<&'static str>,
 }
+
+/// Why a beta fit has fewer parameters than three.
+const FEW_VALUES: &str =
+    "the scores take fewer than three distinct values, so the map was fitted with a and c only (b = 0)";
+const NO_FIT: &str = "no fit converged, so the map is the constant observed positive rate";
 
 impl BetaMap {
     /// Fits the three-parameter map with the authors' handling of negative
     /// coefficients, falling back to smoothed targets under separation.
-    pub fn fit(scores: &[f64], labels: &[bool]) -> Option<BetaMap> {
+    pub fn fit(scores: &[f64], labels: &[bool]) -> BetaMap {
         let ln_s: Vec<f64> = scores
             .iter()
             .map(|&s| s.clamp(CLIP, 1.0 - CLIP).ln())
@@ -47,8 +61,13 @@ impl BetaMap {
             .map(|&s| -(1.0 - s.clamp(CLIP, 1.0 - CLIP)).ln())
             .collect();
         let y: Vec<f64> = labels.iter().map(|&l| f64::from(u8::from(l))).collect();
-        if let Some(m) = Self::fit_targets(&ln_s, &ln_1s, &y) {
-            return Some(m);
+        let mut distinct: Vec<f64> = ln_s.clone();
+        distinct.sort_by(f64::total_cmp);
+        distinct.dedup();
+        let full = distinct.len() >= 3;
+        let reduced = (!full).then_some(FEW_VALUES);
+        if let Some(m) = Self::fit_targets(&ln_s, &ln_1s, &y, full) {
+            return BetaMap { reduced, ..m };
         }
         let n_pos = y.iter().sum::<f64>();
         let n_neg = y.len() as f64 - n_pos;
@@ -62,25 +81,47 @@ impl BetaMap {
                 }
             })
             .collect();
-        Self::fit_targets(&ln_s, &ln_1s, &smoothed).map(|m| BetaMap {
-            smoothed: true,
-            ..m
-        })
+        if let Some(m) = Self::fit_targets(&ln_s, &ln_1s, &smoothed, full) {
+            return BetaMap {
+                smoothed: true,
+                reduced,
+                ..m
+            };
+        }
+        // The base rate, as a constant map: logit q = c.
+        let rate = (y.iter().sum::<f64>() / y.len().max(1) as f64).clamp(CLIP, 1.0 - CLIP);
+        BetaMap {
+            a: 0.0,
+            b: 0.0,
+            c: (rate / (1.0 - rate)).ln(),
+            smoothed: false,
+            reduced: Some(NO_FIT),
+        }
     }
 
-    fn fit_targets(ln_s: &[f64], ln_1s: &[f64], y: &[f64]) -> Option<BetaMap> {
+    /// The authors' fit on targets `y`; with `full` false the b feature is
+    /// left out from the start.
+    fn fit_targets(ln_s: &[f64], ln_1s: &[f64], y: &[f64], full: bool) -> Option<BetaMap> {
         let map = |a, b, c| BetaMap {
             a,
             b,
             c,
             smoothed: false,
+            reduced: None,
         };
-        let full = logistic(&[ln_s, ln_1s], None, y)?;
-        let (c, a, b) = (full[0], full[1], full[2]);
+        let constant = || logistic(&[], None, y).map(|fit| map(0.0, 0.0, fit[0]));
+        if !full {
+            let fit = logistic(&[ln_s], None, y)?;
+            if fit[1] >= 0.0 {
+                return Some(map(fit[1], 0.0, fit[0]));
+            }
+            return constant();
+        }
+        let fit = logistic(&[ln_s, ln_1s], None, y)?;
+        let (c, a, b) = (fit[0], fit[1], fit[2]);
         if a >= 0.0 && b >= 0.0 {
             return Some(map(a, b, c));
         }
-        let constant = || logistic(&[], None, y).map(|fit| map(0.0, 0.0, fit[0]));
         if a < 0.0 {
             let fit = logistic(&[ln_1s], None, y)?;
             if fit[1] >= 0.0 {
@@ -111,9 +152,14 @@ impl BinaryMap for BetaMap {
     }
 
     fn warning(&self) -> Option<String> {
-        self.smoothed.then(|| {
-            "beta calibration: the scores separate the classes, so the map was fitted on Platt's smoothed targets".to_string()
-        })
+        let mut said = Vec::new();
+        if let Some(why) = self.reduced {
+            said.push(format!("beta calibration: {why}"));
+        }
+        if self.smoothed {
+            said.push("beta calibration: the scores separate the classes, so the map was fitted on Platt's smoothed targets".to_string());
+        }
+        (!said.is_empty()).then(|| said.join("; "))
     }
 }
 
@@ -123,14 +169,7 @@ impl BinaryCalibrator for Beta {
     }
 
     fn fit(&self, scores: &[f64], labels: &[bool]) -> Result<Box<dyn BinaryMap>> {
-        BetaMap::fit(scores, labels)
-            .map(|m| Box::new(m) as Box<dyn BinaryMap>)
-            .ok_or_else(|| {
-                Error::Fit(
-                    "beta calibration did not converge on these calibration scores; use platt or isotonic for this family"
-                        .into(),
-                )
-            })
+        Ok(Box::new(BetaMap::fit(scores, labels)))
     }
 }
 
@@ -146,6 +185,7 @@ mod tests {
             b: 1.0,
             c: 0.0,
             smoothed: false,
+            reduced: None,
         };
         for s in [0.001, 0.2, 0.5, 0.77, 0.999] {
             assert!((m.apply(s) - s).abs() < 1e-12);
@@ -159,7 +199,7 @@ mod tests {
         let mut rng = crate::common::rng::SplitMix64::new(8);
         let s: Vec<f64> = (0..20_000).map(|_| 0.02 + 0.96 * rng.unit()).collect();
         let y: Vec<bool> = s.iter().map(|&p| rng.unit() < p).collect();
-        let m = BetaMap::fit(&s, &y).unwrap();
+        let m = BetaMap::fit(&s, &y);
         for p in [0.1, 0.5, 0.9] {
             assert!((m.apply(p) - p).abs() < 0.03, "{m:?}");
         }
@@ -169,7 +209,7 @@ mod tests {
     fn separated_scores_fall_back_to_smoothed_targets() {
         let s = [0.1, 0.2, 0.3, 0.7, 0.8, 0.9];
         let y = [false, false, false, true, true, true];
-        let m = BetaMap::fit(&s, &y).unwrap();
+        let m = BetaMap::fit(&s, &y);
         assert!(m.smoothed && m.warning().is_some());
         assert!(m.apply(0.9) > 0.5 && m.apply(0.9) < 1.0 && m.apply(0.1) < 0.5);
     }
@@ -182,7 +222,7 @@ mod tests {
         let y = [
             true, false, false, false, true, false, true, true, true, true,
         ];
-        let m = BetaMap::fit(&s, &y).unwrap();
+        let m = BetaMap::fit(&s, &y);
         assert!(m.a >= 0.0 && m.b >= 0.0, "{m:?}");
         let mut prev = 0.0;
         for i in 1..100 {

@@ -15,7 +15,9 @@
 //! 1 - p. Multiclass tasks have one map per class, and each row is then
 //! divided by its sum (uniform if the sum is 0). Map kinds, for an input s:
 //!
-//! - `sigmoid` (Platt): p = 1 / (1 + exp(a s + b));
+//! - `sigmoid` (Platt): p = 1 / (1 + exp(a s + b)), with s first clipped to
+//!   `clip` = [low, high] when the map has it (scores beyond the
+//!   calibration scores' outer fences);
 //! - `piecewise_linear` (isotonic): linear interpolation through the points
 //!   (x, y), constant beyond the first and last x;
 //! - `steps` (histogram binning): y[i] for the first i with s <= upper[i],
@@ -39,11 +41,28 @@ use serde::{Deserialize, Serialize};
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum MapSpec {
-    Sigmoid { a: f64, b: f64 },
-    PiecewiseLinear { x: Vec<f64>, y: Vec<f64> },
-    Steps { upper: Vec<f64>, y: Vec<f64> },
-    Beta { a: f64, b: f64, c: f64 },
-    Constant { value: f64 },
+    Sigmoid {
+        a: f64,
+        b: f64,
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        clip: Option<[f64; 2]>,
+    },
+    PiecewiseLinear {
+        x: Vec<f64>,
+        y: Vec<f64>,
+    },
+    Steps {
+        upper: Vec<f64>,
+        y: Vec<f64>,
+    },
+    Beta {
+        a: f64,
+        b: f64,
+        c: f64,
+    },
+    Constant {
+        value: f64,
+    },
 }
 
 /// A map with the class it is for.
@@ -186,7 +205,19 @@ impl CalibrationFile {
 fn binary_map(m: &MapSpec) -> std::result::Result<Box<dyn BinaryMap>, String> {
     let finite = |v: &[f64]| v.iter().all(|x| x.is_finite());
     Ok(match m {
-        MapSpec::Sigmoid { a, b } if finite(&[*a, *b]) => Box::new(PlattMap { a: *a, b: *b }),
+        MapSpec::Sigmoid { a, b, clip }
+            if finite(&[*a, *b]) && clip.is_none_or(|[lo, hi]| lo <= hi && finite(&[lo, hi])) =>
+        {
+            let [low, high] = clip.unwrap_or([f64::NEG_INFINITY, f64::INFINITY]);
+            Box::new(PlattMap {
+                a: *a,
+                b: *b,
+                low,
+                high,
+                clipped: 0,
+                flat: false,
+            })
+        }
         MapSpec::PiecewiseLinear { x, y }
             if !x.is_empty()
                 && x.len() == y.len()
@@ -215,6 +246,7 @@ fn binary_map(m: &MapSpec) -> std::result::Result<Box<dyn BinaryMap>, String> {
             b: *b,
             c: *c,
             smoothed: false,
+            reduced: None,
         }),
         MapSpec::Constant { value } if value.is_finite() => Box::new(Constant(*value)),
         _ => return Err("a map with missing, non-finite or unordered numbers".into()),

@@ -126,6 +126,10 @@ pub struct Method {
     pub about: &'static str,
     /// Builds the method.
     pub build: fn(&Settings) -> Box<dyn Calibrator>,
+    /// Raised whenever a change to the method changes its results within
+    /// one candor version, so that a resumed run does not reuse cells the
+    /// earlier method computed (it is part of every cell's fingerprint).
+    pub revision: u32,
 }
 
 /// The raw probabilities, unchanged: the "before" row of every comparison.
@@ -137,16 +141,19 @@ pub const METHODS: &[Method] = &[
         name: NONE,
         about: "no calibration: the family's own probabilities",
         build: |_| Box::new(Identity),
+        revision: 0,
     },
     Method {
         name: "platt",
         about: "Platt scaling, fitted with the Lin-Lin-Weng Newton method on the native score",
         build: |_| Box::new(OneVsRest(Platt)),
+        revision: 1,
     },
     Method {
         name: "isotonic",
         about: "isotonic regression (PAV), linear interpolation between thresholds, clipped",
         build: |_| Box::new(OneVsRest(Isotonic)),
+        revision: 0,
     },
     Method {
         name: "histogram",
@@ -156,21 +163,25 @@ pub const METHODS: &[Method] = &[
                 bins: s.histogram_bins,
             }))
         },
+        revision: 0,
     },
     Method {
         name: "beta",
         about: "beta calibration: logistic regression on ln p and -ln(1 - p), kept monotone",
         build: |_| Box::new(OneVsRest(Beta)),
+        revision: 1,
     },
     Method {
         name: "temperature",
         about: "temperature scaling: one temperature on the native scores, natively multiclass",
         build: |_| Box::new(Temperature),
+        revision: 0,
     },
     Method {
         name: "venn_abers",
         about: "inductive Venn-Abers: merged probability of the isotonic pair (p0, p1)",
         build: |_| Box::new(OneVsRest(VennAbers)),
+        revision: 0,
     },
 ];
 

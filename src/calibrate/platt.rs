@@ -1,6 +1,24 @@
 //! Platt scaling, P(y = 1 | f) = 1 / (1 + exp(A f + B)), fitted with the
 //! Newton method and backtracking line search of Lin, Lin & Weng (2007) on
 //! Platt's smoothed targets t+ = (N+ + 1)/(N+ + 2), t- = 1/(N- + 2).
+//!
+//! Two rules keep the map a calibration of the scores rather than a
+//! reinterpretation of them:
+//!
+//! - **Extreme scores are clipped.** One slope serves every row, so a few
+//!   scores far outside the rest (naive Bayes log-odds of 1e9 beside a bulk
+//!   within ±10) would set it alone. Scores are clipped to Tukey's outer
+//!   fences of the calibration scores, [Q1 - 3 IQR, Q3 + 3 IQR] (Tukey 1977,
+//!   "far out" values), before the fit, and the same bounds apply to every
+//!   score the map is later given. Nothing is clipped when the IQR is 0.
+//! - **The slope keeps the order.** A map meant to be monotone must not
+//!   rank rows backwards, so A is constrained to A <= 0 (forecasts rise
+//!   with the score). The log-likelihood is concave, so when its maximum
+//!   has A > 0 the constrained maximum has A = 0: the forecasts are the
+//!   smoothed base rate, which discards the scores' ranking instead of
+//!   reversing it.
+//!
+//! Either rule, when active, is recorded as a warning with the result.
 
 use super::{BinaryCalibrator, BinaryMap, Input};
 use crate::common::error::Result;
@@ -8,11 +26,43 @@ use crate::common::error::Result;
 /// Platt scaling on the family's native score.
 pub struct Platt;
 
-/// A fitted Platt map; `A < 0` for a score that rises with the positive class.
+/// A fitted Platt map; `A <= 0`, so forecasts never fall as the score rises.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct PlattMap {
     pub a: f64,
     pub b: f64,
+    /// Scores are clipped to these bounds (infinite when none apply).
+    pub low: f64,
+    pub high: f64,
+    /// Calibration scores the bounds clipped.
+    pub clipped: usize,
+    /// Whether the order constraint held the slope at zero.
+    pub flat: bool,
+}
+
+/// Tukey's outer fences of the scores, or infinite bounds when the IQR is 0
+/// (or the sample too small to have quartiles).
+fn fences(f: &[f64]) -> (f64, f64) {
+    let mut sorted: Vec<f64> = f.iter().copied().filter(|v| v.is_finite()).collect();
+    if sorted.len() < 4 {
+        return (f64::NEG_INFINITY, f64::INFINITY);
+    }
+    sorted.sort_by(f64::total_cmp);
+    // Quartiles by linear interpolation between order statistics (type 7
+    // of Hyndman & Fan 1996, the default of R and numpy).
+    let q = |p: f64| {
+        let h = p * (sorted.len() - 1) as f64;
+        let i = h.floor() as usize;
+        let j = (i + 1).min(sorted.len() - 1);
+        sorted[i] + (h - i as f64) * (sorted[j] - sorted[i])
+    };
+    let (q1, q3) = (q(0.25), q(0.75));
+    let iqr = q3 - q1;
+    if iqr > 0.0 {
+        (q1 - 3.0 * iqr, q3 + 3.0 * iqr)
+    } else {
+        (f64::NEG_INFINITY, f64::INFINITY)
+    }
 }
 
 const MAX_ITER: usize = 100;
@@ -45,21 +95,37 @@ impl PlattMap {
     /// on the gradient, whose first entry grows with the scores, then works
     /// at the intended precision instead of stalling far from it.
     pub fn fit(f: &[f64], labels: &[bool]) -> PlattMap {
+        let (low, high) = fences(f);
+        let clipped = f.iter().filter(|&&v| v < low || v > high).count();
+        let f: Vec<f64> = f.iter().map(|v| v.clamp(low, high)).collect();
         let scale = f.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-        if scale > 30.0 {
+        let (a, b) = if scale > 30.0 {
             let scaled: Vec<f64> = f.iter().map(|v| v / scale).collect();
-            let m = Self::fit_unscaled(&scaled, labels);
-            return PlattMap {
-                a: m.a / scale,
-                b: m.b,
-            };
+            let (a, b) = Self::fit_unscaled(&scaled, labels);
+            (a / scale, b)
+        } else {
+            Self::fit_unscaled(&f, labels)
+        };
+        let map = |a, b, flat| PlattMap {
+            a,
+            b,
+            low,
+            high,
+            clipped,
+            flat,
+        };
+        if a <= 0.0 {
+            return map(a, b, false);
         }
-        Self::fit_unscaled(f, labels)
+        // The maximum lies on A = 0: the smoothed targets' mean rate.
+        let (n_pos, n_neg) = counts(labels);
+        let t = (n_pos * (n_pos + 1.0) / (n_pos + 2.0) + n_neg / (n_neg + 2.0)) / (n_pos + n_neg);
+        map(0.0, ((1.0 - t) / t).ln(), true)
     }
 
-    fn fit_unscaled(f: &[f64], labels: &[bool]) -> PlattMap {
-        let n_pos = labels.iter().filter(|&&l| l).count() as f64;
-        let n_neg = labels.len() as f64 - n_pos;
+    /// The unconstrained maximum (A, B) on unclipped scores.
+    fn fit_unscaled(f: &[f64], labels: &[bool]) -> (f64, f64) {
+        let (n_pos, n_neg) = counts(labels);
         let hi = (n_pos + 1.0) / (n_pos + 2.0);
         let lo = 1.0 / (n_neg + 2.0);
         let t: Vec<f64> = labels.iter().map(|&l| if l { hi } else { lo }).collect();
@@ -110,8 +176,14 @@ impl PlattMap {
                 break;
             }
         }
-        PlattMap { a, b }
+        (a, b)
     }
+}
+
+/// Positive and negative labels, as reals.
+fn counts(labels: &[bool]) -> (f64, f64) {
+    let n_pos = labels.iter().filter(|&&l| l).count() as f64;
+    (n_pos, labels.len() as f64 - n_pos)
 }
 
 impl BinaryMap for PlattMap {
@@ -119,11 +191,29 @@ impl BinaryMap for PlattMap {
         Some(super::MapSpec::Sigmoid {
             a: self.a,
             b: self.b,
+            clip: (self.low.is_finite() && self.high.is_finite()).then_some([self.low, self.high]),
         })
     }
 
     fn apply(&self, score: f64) -> f64 {
-        crate::common::math::sigmoid(-(self.a * score + self.b))
+        let s = score.clamp(self.low, self.high);
+        crate::common::math::sigmoid(-(self.a * s + self.b))
+    }
+
+    fn warning(&self) -> Option<String> {
+        let mut said = Vec::new();
+        if self.clipped > 0 {
+            said.push(format!(
+                "platt: {} calibration score(s) beyond Tukey's outer fences were clipped to [{:.4}, {:.4}] before the fit",
+                self.clipped, self.low, self.high
+            ));
+        }
+        if self.flat {
+            said.push(
+                "platt: the best slope would rank the rows backwards, so it is held at 0 and every forecast is the smoothed base rate".to_string(),
+            );
+        }
+        (!said.is_empty()).then(|| said.join("; "))
     }
 }
 

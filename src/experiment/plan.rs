@@ -82,6 +82,10 @@ struct FingerprintInput<'a> {
     #[serde(skip_serializing_if = "is_zero")]
     family_revision: u32,
     methods: &'a [String],
+    /// The methods whose revision is above zero, with it (left out when
+    /// none is, for the same reason as the family's).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    method_revisions: Vec<(&'a str, u32)>,
     calibration: &'a crate::calibrate::Settings,
     metrics: &'a [String],
 }
@@ -117,6 +121,14 @@ fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
         family: &exp.families[f],
         family_revision: learner::find(&exp.families[f].kind).map_or(0, |k| k.revision),
         methods: &exp.methods,
+        method_revisions: exp
+            .methods
+            .iter()
+            .filter_map(|m| {
+                let revision = crate::calibrate::find(m)?.revision;
+                (revision > 0).then_some((m.as_str(), revision))
+            })
+            .collect(),
         calibration: &exp.calibration,
         metrics: &exp.metrics,
     };
