@@ -89,3 +89,31 @@ fn undefined_folds_leave_the_diagnosis_undetermined() {
     g[2] = f64::NAN;
     assert_eq!(diagnose(&a, &b, &g, 0.25).label(), "undetermined");
 }
+
+#[test]
+fn the_summary_counts_each_property_separately() {
+    // Eight rows over-confident, five over-confident and biased down, one
+    // near-calibrated: over-confidence holds in 13 of 14, not 8.
+    use candor::report::{summarise, Bias, Diagnosis};
+    let d = |shape, bias| Diagnosis {
+        shape,
+        bias,
+        determined: true,
+    };
+    let mut rows = vec![d(Some(Shape::OverConfident), None); 8];
+    rows.extend(vec![d(Some(Shape::OverConfident), Some(Bias::Down)); 5]);
+    rows.push(d(None, None));
+    assert_eq!(
+        summarise(&rows),
+        "over-confident in 13 of 14; biased down in 5 of 14; near-calibrated in 1 of 14"
+    );
+    let undetermined = Diagnosis {
+        shape: None,
+        bias: None,
+        determined: false,
+    };
+    assert_eq!(
+        summarise(&[undetermined, d(None, Some(Bias::Up))]),
+        "biased up in 1 of 2; undetermined in 1 of 2"
+    );
+}

@@ -131,7 +131,7 @@ fn mean(v: &[f64]) -> f64 {
 }
 
 /// The diagnosis table: one row per (dataset, family) of the raw model,
-/// then one row per family over all datasets naming its most common label.
+/// then one row per family over all datasets counting each property.
 pub fn table(results: &Results) -> Table {
     let mut t = Table::new(
         "diagnosis",
@@ -164,13 +164,14 @@ pub fn table(results: &Results) -> Table {
     }
     let mut overall = Vec::new();
     for f in &results.exp.families {
-        let mut labels = Vec::new();
+        let mut found_all = Vec::new();
         for d in &results.exp.datasets {
             let cells = results.cells(&d.name, &f.name);
             let s = fold_values(&cells, "none", "calibration_slope");
             let a = fold_values(&cells, "none", "calibration_intercept");
             let g = fold_values(&cells, "none", "calibration_gap");
-            let label = diagnose(&s, &a, &g, test_over_train(&cells)).label();
+            let found = diagnose(&s, &a, &g, test_over_train(&cells));
+            let label = found.label();
             let forecast = if results.classes(&d.name) > 2 {
                 "top label"
             } else {
@@ -185,7 +186,7 @@ pub fn table(results: &Results) -> Table {
                 mean(&g).into(),
                 label.as_str().into(),
             ]);
-            labels.push(label);
+            found_all.push(found);
         }
         overall.push(vec![
             Value::from("all datasets"),
@@ -194,27 +195,48 @@ pub fn table(results: &Results) -> Table {
             f64::NAN.into(),
             f64::NAN.into(),
             f64::NAN.into(),
-            most_common(&labels).into(),
+            summarise(&found_all).into(),
         ]);
     }
     t.rows.extend(overall);
     t
 }
 
-/// "label (m of n)" for the most common label; ties list each.
-fn most_common(labels: &[String]) -> String {
-    let mut counts: Vec<(String, usize)> = Vec::new();
-    for l in labels {
-        match counts.iter_mut().find(|(x, _)| x == l) {
-            Some((_, c)) => *c += 1,
-            None => counts.push((l.clone(), 1)),
-        }
-    }
-    let top = counts.iter().map(|(_, c)| *c).max().unwrap_or(0);
-    counts
+/// How often each property holds over a family's datasets, counted
+/// separately: a row that is over-confident and biased down counts for
+/// both, so "over-confident in 13 of 14" means just that. Properties that
+/// never hold are left out; the order is fixed.
+pub fn summarise(rows: &[Diagnosis]) -> String {
+    let n = rows.len();
+    let count = |f: &dyn Fn(&Diagnosis) -> bool| rows.iter().filter(|d| f(d)).count();
+    let found = |d: &Diagnosis| d.determined;
+    let parts: [(&str, usize); 6] = [
+        (
+            "over-confident",
+            count(&|d| found(d) && d.shape == Some(Shape::OverConfident)),
+        ),
+        (
+            "under-confident",
+            count(&|d| found(d) && d.shape == Some(Shape::UnderConfident)),
+        ),
+        (
+            "biased up",
+            count(&|d| found(d) && d.bias == Some(Bias::Up)),
+        ),
+        (
+            "biased down",
+            count(&|d| found(d) && d.bias == Some(Bias::Down)),
+        ),
+        (
+            "near-calibrated",
+            count(&|d| found(d) && d.shape.is_none() && d.bias.is_none()),
+        ),
+        ("undetermined", count(&|d| !d.determined)),
+    ];
+    parts
         .iter()
-        .filter(|(_, c)| *c == top)
-        .map(|(l, c)| format!("{l} ({c} of {})", labels.len()))
+        .filter(|(_, k)| *k > 0)
+        .map(|(what, k)| format!("{what} in {k} of {n}"))
         .collect::<Vec<_>>()
-        .join(" / ")
+        .join("; ")
 }

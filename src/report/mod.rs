@@ -16,7 +16,7 @@ mod ranking;
 mod style;
 mod tables;
 
-pub use diagnosis::{diagnose, Diagnosis, Shape};
+pub use diagnosis::{diagnose, summarise, Bias, Diagnosis, Shape};
 pub use ranking::Ranking;
 pub use tables::{intervals, Interval};
 
