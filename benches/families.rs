@@ -29,6 +29,7 @@ fn main() {
                 positive: None,
                 format: Default::default(),
                 origin: String::new(),
+                segment_of: None,
             };
             candor::data::source::load(&spec, Some(&catalog), &dir).expect("bundled dataset")
         })

@@ -39,7 +39,14 @@ fn tables_match_the_golden_files() {
     let golden = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/report/golden");
     let bless = std::env::var_os("CANDOR_BLESS").is_some();
     let mut compared = 0;
-    for name in ["metrics", "families", "datasets", "diagnosis", "ranking"] {
+    for name in [
+        "metrics",
+        "families",
+        "datasets",
+        "choices",
+        "diagnosis",
+        "ranking",
+    ] {
         for ext in ["md", "csv", "json"] {
             let file = format!("{name}.{ext}");
             let got = std::fs::read_to_string(dir.join("report").join(&file)).unwrap();
@@ -55,7 +62,7 @@ fn tables_match_the_golden_files() {
             compared += 1;
         }
     }
-    assert_eq!(compared, 15);
+    assert_eq!(compared, 18);
 }
 
 #[test]
@@ -308,7 +315,10 @@ fn another_deciding_metric_gets_its_own_column_and_direction() {
     };
     report::generate(&dir, &opts).unwrap();
     let families = std::fs::read_to_string(dir.join("report/families.md")).unwrap();
-    assert!(families.contains("| median_auc | best |"), "{families}");
+    assert!(
+        families.contains("| median_auc | auc_below_raw | best |"),
+        "{families}"
+    );
     assert!(
         families.contains("best median auc (higher is better)"),
         "{families}"

@@ -86,7 +86,7 @@ fn score_reports_the_demo_and_finds_its_known_flaws() {
         "records.jsonl",
         "run.json",
         "report/report.html",
-        "report/ranking.md",
+        "report/segments.md",
     ] {
         assert!(dir.join(f).exists(), "{f}");
     }
@@ -103,11 +103,24 @@ fn score_reports_the_demo_and_finds_its_known_flaws() {
             .to_string()
     };
     assert!(row("deliveries,").contains("over-confident"), "{diag}");
-    assert!(
-        row("deliveries region=north").contains("biased down"),
-        "{diag}"
-    );
-    assert!(!row("deliveries region=east").contains("biased"), "{diag}");
+    // Segments are not datasets: the counts run over the one file, the
+    // ranking needs independent datasets, and each region has its own row
+    // in the segments table, diagnosis included.
+    let all = row("all datasets");
+    assert!(all.contains("over-confident in 1 of 1"), "{all}");
+    assert!(!diag.contains("region="), "{diag}");
+    assert!(!dir.join("report/ranking.csv").exists());
+    let segments = std::fs::read_to_string(dir.join("report/segments.csv")).unwrap();
+    assert_eq!(segments.lines().count(), 1 + 4, "{segments}");
+    let segment = |name: &str| {
+        segments
+            .lines()
+            .find(|l| l.starts_with(name))
+            .unwrap()
+            .to_string()
+    };
+    assert!(segment("deliveries region=north,deliveries,coop,").contains("biased down"));
+    assert!(!segment("deliveries region=east,deliveries,coop,").contains("biased"));
     // Recalibration helps: Platt's ECE on the whole file is well below the
     // raw one.
     assert!(ece_of(&summary, "deliveries", "platt") < 0.5 * ece_of(&summary, "deliveries", "none"));

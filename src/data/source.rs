@@ -36,6 +36,11 @@ pub struct DatasetSpec {
     /// `file:line:column` of the entry, for later error messages.
     #[serde(skip)]
     pub origin: String,
+    /// For a segment of another dataset (`candor score --group`), that
+    /// dataset's name: a segment shares its rows, so it is reported in its
+    /// own table and never counted as an independent dataset.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub segment_of: Option<String>,
 }
 
 /// Loads a manifest's dataset entry, from the catalog or from a path

@@ -333,6 +333,7 @@ fn datasets(at: &Locator, raw: Vec<RawDataset>) -> Vec<DatasetSpec> {
             positive,
             format,
             origin: at.position(d.name.span().start),
+            segment_of: None,
         });
     }
     datasets

@@ -69,7 +69,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
     if let Some((c, &m)) = counts.iter().enumerate().min_by_key(|(_, &m)| m) {
         if m < opts.folds {
             return Err(Error::Data(format!(
-                "{}: class `{}` has {m} rows, fewer than the {} folds; lower --folds",
+                "{}: class `{}` has {m} rows, fewer than the {} folds; lower --outer-folds",
                 path.display(),
                 pred.classes[c],
                 opts.folds
@@ -103,6 +103,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 positive: opts.layout.positive.clone(),
                 format: Default::default(),
                 origin: String::new(),
+                segment_of: (*d != name).then(|| name.clone()),
             })
             .collect(),
         families: vec![FamilySpec {
@@ -116,7 +117,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
         source: ManifestSource {
             path: path.to_path_buf(),
             text: format!(
-                "# candor score {}: {} folds, seed {}, {} bins, label column {:?}, group column {:?}\n",
+                "# candor score {}: {} folds, seed {}, {} bins, target column {:?}, group column {:?}\n",
                 path.display(),
                 opts.folds,
                 opts.seed,

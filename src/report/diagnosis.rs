@@ -165,7 +165,7 @@ pub fn table(results: &Results) -> Table {
     let mut overall = Vec::new();
     for f in &results.exp.families {
         let mut found_all = Vec::new();
-        for d in &results.exp.datasets {
+        for d in results.datasets() {
             let cells = results.cells(&d.name, &f.name);
             let s = fold_values(&cells, "none", "calibration_slope");
             let a = fold_values(&cells, "none", "calibration_intercept");

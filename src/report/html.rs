@@ -71,8 +71,12 @@ pub fn render(results: &Results, tables: &[Table], figures: &[Figure]) -> String
     ));
     let e = &results.exp.evaluation;
     out.push_str(&format!(
-        "<p>{} datasets, {} families, {} methods; {} x {} outer folds, {} inner folds for the calibrators; {} cells. Every table is also in <code>report/</code> as Markdown, CSV and JSON.</p>\n",
-        results.exp.datasets.len(),
+        "<p>{} datasets{}, {} families, {} methods; {} x {} outer folds, {} inner folds for the calibrators; {} cells. Every table is also in <code>report/</code> as Markdown, CSV and JSON.</p>\n",
+        results.datasets().count(),
+        match results.segments().count() {
+            0 => String::new(),
+            n => format!(" (and {n} segments of them)"),
+        },
         results.exp.families.len(),
         results.exp.methods.len(),
         e.repeats,
@@ -85,8 +89,15 @@ pub fn render(results: &Results, tables: &[Table], figures: &[Figure]) -> String
     if let Some(t) = find("diagnosis") {
         out.push_str(&table_html(t, |_| true));
     }
+    if let Some(t) = find("segments") {
+        out.push_str("<h2>Segments</h2>\n");
+        out.push_str(&format!(
+            "<div class=\"scroll\">{}</div>",
+            table_html(t, |_| true)
+        ));
+    }
     out.push_str("<h2>Best choices</h2>\n");
-    for n in ["datasets", "families"] {
+    for n in ["datasets", "choices", "families"] {
         if let Some(t) = find(n) {
             out.push_str(&format!(
                 "<div class=\"scroll\">{}</div>",

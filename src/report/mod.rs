@@ -9,13 +9,16 @@
 //! manifest, store records and summary it reads back); `gate` and
 //! `commands` build on it.
 
+mod choices;
 mod diagnosis;
 mod figures;
 mod html;
 mod ranking;
+mod segments;
 mod style;
 mod tables;
 
+pub use choices::{standings, Standing};
 pub use diagnosis::{diagnose, summarise, Bias, Diagnosis, Shape};
 pub use ranking::Ranking;
 pub use tables::{intervals, Interval};
@@ -23,6 +26,7 @@ pub use tables::{intervals, Interval};
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::common::table::Table;
+use crate::data::source::DatasetSpec;
 use crate::experiment::manifest::{Experiment, ManifestSource};
 use crate::experiment::store::CellRecord;
 use crate::export::TABLE_FORMATS;
@@ -116,6 +120,18 @@ impl Results {
         })
     }
 
+    /// The independent datasets: every dataset but the segments of another.
+    /// Rankings, medians across datasets and diagnosis counts use these
+    /// alone, since a segment repeats rows of its whole.
+    pub fn datasets(&self) -> impl Iterator<Item = &DatasetSpec> {
+        self.exp.datasets.iter().filter(|d| d.segment_of.is_none())
+    }
+
+    /// The segments of other datasets, reported in their own table.
+    pub fn segments(&self) -> impl Iterator<Item = &DatasetSpec> {
+        self.exp.datasets.iter().filter(|d| d.segment_of.is_some())
+    }
+
     /// The cells of one (dataset, family), in (repeat, fold) order, so that
     /// per-fold values of two methods pair up.
     pub fn cells(&self, dataset: &str, family: &str) -> Vec<&CellRecord> {
@@ -187,11 +203,13 @@ pub fn build(results: &Results, opts: &ReportOptions) -> Result<Report> {
     let intervals = tables::intervals(results);
     let mut all = vec![
         tables::metric_table(results, &intervals),
-        tables::family_table(results, metric),
-        tables::dataset_table(results, metric),
+        tables::family_table(results, metric, &intervals),
+        tables::dataset_table(results, metric, &intervals),
+        choices::table(results, metric),
     ];
     let diagnoses = diagnosis::table(results);
     all.push(diagnoses);
+    all.extend(segments::table(results, metric));
     let ranking = ranking::rank(results, metric);
     if let Some(r) = &ranking {
         all.push(r.table());
@@ -214,6 +232,18 @@ pub fn write(results: &Results, report: &Report, opts: &ReportOptions) -> Result
         std::fs::create_dir_all(d).map_err(|e| Error::io(d, "create the report folder", &e))
     };
     make(&dir)?;
+    // Tables a report may lack (no ranking with one dataset, no segments
+    // without groups): an earlier report's copies would mislead.
+    for name in ["ranking", "segments"] {
+        if report.tables.iter().all(|t| t.name != name) {
+            for ex in TABLE_FORMATS {
+                let stale = dir.join(format!("{name}.{}", ex.extension()));
+                if stale.exists() {
+                    std::fs::remove_file(&stale).map_err(|e| Error::io(&stale, "remove", &e))?;
+                }
+            }
+        }
+    }
     for t in &report.tables {
         for ex in TABLE_FORMATS {
             write_atomic(

@@ -45,7 +45,7 @@ pub fn rank(results: &Results, metric: &Metric) -> Option<Ranking> {
     let k = pairs.len();
     let mut rank_rows = Vec::new();
     let (mut used, mut excluded) = (Vec::new(), Vec::new());
-    for d in &results.exp.datasets {
+    for d in results.datasets() {
         let values: Vec<f64> = pairs
             .iter()
             .map(|(f, m)| {

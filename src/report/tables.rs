@@ -38,6 +38,45 @@ pub fn badness(metric: &Metric, v: f64) -> f64 {
     }
 }
 
+/// The AUC lost by a calibrated pair against its raw model, when the
+/// paired fold interval of the change lies wholly below 0: the map ranks
+/// rows worse than the scores it was given. `None` otherwise, or without
+/// AUC in the results.
+pub fn auc_loss(intervals: &Intervals, dataset: &str, family: &str, method: &str) -> Option<f64> {
+    if method == "none" {
+        return None;
+    }
+    let key = (
+        dataset.to_string(),
+        family.to_string(),
+        method.to_string(),
+        "auc".to_string(),
+    );
+    intervals
+        .get(&key)
+        .filter(|i| i.change_high < 0.0)
+        .map(|i| -i.change)
+}
+
+/// Whether a metric can be improved by giving up discrimination: every
+/// calibration error is 0 for forecasts that always state the base rate,
+/// while proper scores (Brier, log loss) and discrimination measures are not
+/// fooled.
+pub fn blind_to_ranking(metric: &Metric) -> bool {
+    !matches!(
+        metric.name,
+        "brier" | "log_loss" | "auc" | "accuracy" | "brier_resolution" | "brier_uncertainty"
+    )
+}
+
+/// The note that says so, for tables that name a best pair.
+fn ranking_note(metric: &Metric) -> Option<String> {
+    blind_to_ranking(metric).then(|| format!(
+        "{} rewards constant forecasts: a map that states the base rate for every row scores well on it and ranks nothing. Pairs marked `AUC below raw` lost discrimination against their raw model (the paired fold interval of the AUC change lies below 0); judge them with a proper score such as `brier`.",
+        metric.name
+    ))
+}
+
 /// Intervals for every (dataset, family, method, metric) in the results.
 pub fn intervals(results: &Results) -> Intervals {
     let mut out = BTreeMap::new();
@@ -165,7 +204,13 @@ pub fn metric_table(results: &Results, intervals: &Intervals) -> Table {
 }
 
 /// The mean over folds, NaN if any fold is missing.
-fn mean(results: &Results, dataset: &str, family: &str, method: &str, metric: &str) -> f64 {
+pub(super) fn mean(
+    results: &Results,
+    dataset: &str,
+    family: &str,
+    method: &str,
+    metric: &str,
+) -> f64 {
     let v = fold_values(&results.cells(dataset, family), method, metric);
     if v.is_empty() {
         return f64::NAN;
@@ -192,7 +237,7 @@ fn distinct(values: impl Iterator<Item = String>) -> String {
 
 /// Per family and method: medians across datasets before and after, and
 /// the method with the best median of the chosen metric.
-pub fn family_table(results: &Results, metric: &Metric) -> Table {
+pub fn family_table(results: &Results, metric: &Metric, intervals: &Intervals) -> Table {
     let has = |m: &str| results.exp.metrics.iter().any(|x| x == m);
     // The deciding metric gets its own column unless it is shown already.
     let extra = !matches!(metric.name, "ece" | "brier");
@@ -209,7 +254,7 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
     if extra {
         columns.push(&chosen_column);
     }
-    columns.extend(["best", "strategies"]);
+    columns.extend(["auc_below_raw", "best", "strategies"]);
     let best_at = columns.len() - 2;
     let mut t = Table::new(
         "families",
@@ -221,19 +266,21 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
         metric.name,
         direction(metric)
     ));
+    t.notes.push("`auc_below_raw`: on how many datasets the method's AUC fell below the raw model's by more than its paired fold interval.".into());
+    t.notes.extend(ranking_note(metric));
     t.notes.push(bins_note(results));
+    let n_datasets = results.datasets().count();
     for f in &results.exp.families {
         let mut rows = Vec::new();
         let mut scores = Vec::new();
+        let mut losses = Vec::new();
         for method in &results.exp.methods {
             let per = |m: &str| -> Vec<f64> {
                 if !has(m) {
                     return Vec::new();
                 }
                 results
-                    .exp
-                    .datasets
-                    .iter()
+                    .datasets()
                     .map(|d| mean(results, &d.name, &f.name, method, m))
                     .collect()
             };
@@ -243,9 +290,7 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
                     Vec::new()
                 } else {
                     results
-                        .exp
-                        .datasets
-                        .iter()
+                        .datasets()
                         .map(|d| mean(results, &d.name, &f.name, "none", m))
                         .collect()
                 };
@@ -256,9 +301,7 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
             scores.push(badness(metric, chosen));
             let strategies = distinct(
                 results
-                    .exp
-                    .datasets
-                    .iter()
+                    .datasets()
                     .map(|d| strategy(results, &d.name, &f.name, method)),
             );
             let mut row = vec![
@@ -273,11 +316,20 @@ pub fn family_table(results: &Results, metric: &Metric) -> Table {
             if extra {
                 row.push(chosen.into());
             }
-            row.extend([Value::from(""), strategies.into()]);
+            let lost = results
+                .datasets()
+                .filter(|d| auc_loss(intervals, &d.name, &f.name, method).is_some())
+                .count();
+            losses.push(lost);
+            row.extend([lost.into(), Value::from(""), strategies.into()]);
             rows.push(row);
         }
         if let Some(best) = argmin(&scores) {
-            rows[best][best_at] = "best".into();
+            rows[best][best_at] = if losses[best] > 0 {
+                format!("best; AUC below raw on {} of {n_datasets}", losses[best]).into()
+            } else {
+                "best".into()
+            };
         }
         t.rows.extend(rows);
     }
@@ -301,7 +353,7 @@ pub fn direction(metric: &Metric) -> &'static str {
 }
 
 /// Index of the smallest finite value; the first on ties.
-fn argmin(v: &[f64]) -> Option<usize> {
+pub(super) fn argmin(v: &[f64]) -> Option<usize> {
     v.iter()
         .enumerate()
         .filter(|(_, x)| x.is_finite())
@@ -312,8 +364,10 @@ fn argmin(v: &[f64]) -> Option<usize> {
         .map(|(i, _)| i)
 }
 
-/// Per dataset: the best family raw, and the best (family, method) pair.
-pub fn dataset_table(results: &Results, metric: &Metric) -> Table {
+/// Per dataset: the best family raw, and the best (family, method) pair,
+/// with where the best raw family stands against the best pair (paired
+/// fold by fold, see [`super::choices`]) and how many pairs are tied.
+pub fn dataset_table(results: &Results, metric: &Metric, intervals: &Intervals) -> Table {
     let m = metric.name;
     let mut t = Table::new(
         "datasets",
@@ -326,13 +380,16 @@ pub fn dataset_table(results: &Results, metric: &Metric) -> Table {
             "best_calibrated",
             &format!("calibrated_{m}"),
             "strategy",
+            "best_raw_against_best",
+            "tied_with_best",
         ],
     );
     t.notes.push(format!(
-        "Best = best fold mean of {m} ({}); a pair whose family or method failed in any fold is not eligible.",
+        "Best = best fold mean of {m} ({}); a pair whose family or method failed in any fold is not eligible. `best_raw_against_best` compares the best raw family with the best pair of all (raw or calibrated) on the same folds; `tied_with_best` counts the pairs whose paired interval reaches 0 (the `choices` table lists every pair).",
         direction(metric)
     ));
-    for d in &results.exp.datasets {
+    t.notes.extend(ranking_note(metric));
+    for d in results.datasets() {
         let raw: Vec<f64> = results
             .exp
             .families
@@ -350,6 +407,29 @@ pub fn dataset_table(results: &Results, metric: &Metric) -> Table {
         let score = |v: &[f64]| v.iter().map(|&x| badness(metric, x)).collect::<Vec<f64>>();
         let best_raw = argmin(&score(&raw));
         let best_cal = argmin(&score(&values));
+        let standings = super::choices::for_dataset(results, &d.name, metric);
+        let raw_standing = best_raw.and_then(|i| {
+            let f = &results.exp.families[i].name;
+            standings
+                .iter()
+                .find(|(sf, sm, _, _)| sf == f && sm == "none")
+                .map(|(_, _, _, s)| s.words())
+        });
+        let eligible = standings
+            .iter()
+            .filter(|r| r.3 != super::choices::Standing::Ineligible)
+            .count();
+        let tied = standings
+            .iter()
+            .filter(|r| matches!(r.3, super::choices::Standing::Tied { .. }))
+            .count();
+        let calibrated = best_cal.map_or("–".to_string(), |i| {
+            let (f, method) = pairs[i];
+            match auc_loss(intervals, &d.name, f, method) {
+                Some(lost) => format!("{f} + {method} (AUC below raw by {lost:.4})"),
+                None => format!("{f} + {method}"),
+            }
+        });
         t.rows.push(vec![
             d.name.as_str().into(),
             results.classes(&d.name).into(),
@@ -357,15 +437,15 @@ pub fn dataset_table(results: &Results, metric: &Metric) -> Table {
                 results.exp.families[i].name.as_str().into()
             }),
             best_raw.map_or(f64::NAN, |i| raw[i]).into(),
-            best_cal.map_or("–".into(), |i| {
-                format!("{} + {}", pairs[i].0, pairs[i].1).into()
-            }),
+            calibrated.into(),
             best_cal.map_or(f64::NAN, |i| values[i]).into(),
             best_cal
                 .map_or(String::new(), |i| {
                     strategy(results, &d.name, pairs[i].0, pairs[i].1)
                 })
                 .into(),
+            raw_standing.unwrap_or_else(|| "–".into()).into(),
+            format!("{tied} of {}", eligible.saturating_sub(1)).into(),
         ]);
     }
     t
