@@ -202,3 +202,37 @@ fn linear_svm_matches_scikit_learn() {
         }
     }
 }
+
+#[test]
+fn boosted_stumps_offer_both_probability_conventions() {
+    // Friedman, Hastie & Tibshirani (2000) read AdaBoost's F through the
+    // logistic correction p = 1/(1+exp(-2F)); the weighted vote share
+    // (1 + F/sum alpha)/2 is the other convention in common use. Both rank
+    // rows alike and share the native score 2F; the vote share is the more
+    // moderate of the two, and each row's shares sum to 1.
+    let (_, _, y, x) = linear_fixture();
+    let family = learner::find("boosted_stumps").unwrap();
+    let fit = |convention: &'static str| {
+        let mut params = Params::defaults(family.params);
+        params
+            .0
+            .insert("probability".into(), ParamValue::Choice(convention));
+        (family.build)(&params)
+            .fit(x.view(), &y, 2, 0)
+            .unwrap()
+            .predict(x.view())
+    };
+    let logistic = fit("logistic");
+    let votes = fit("vote_share");
+    assert_eq!(logistic.native, votes.native);
+    let spread = |p: &Array2<f64>| p.column(1).iter().map(|v| (v - 0.5).abs()).sum::<f64>();
+    assert!(spread(&votes.proba) < spread(&logistic.proba));
+    for i in 0..y.len() {
+        assert!((votes.proba[[i, 0]] + votes.proba[[i, 1]] - 1.0).abs() < 1e-12);
+        for j in 0..y.len() {
+            let a = logistic.proba[[i, 1]] < logistic.proba[[j, 1]];
+            let b = votes.proba[[i, 1]] < votes.proba[[j, 1]];
+            assert_eq!(a, b, "rows {i} and {j} rank differently");
+        }
+    }
+}

@@ -231,3 +231,19 @@ fn histogram_bins_out_of_range() {
 fn toml_syntax_error() {
     expect(&format!("{HEAD}[[dataset]\n"), &["bad.toml:3:", "invalid"]);
 }
+
+#[test]
+fn a_convention_parameter_names_its_choices() {
+    let family = "[[family]]\nname = \"ada\"\nkind = \"boosted_stumps\"\n";
+    expect(
+        &format!("{HEAD}{DATA}{family}params = {{ probability = \"votes\" }}\n"),
+        &[
+            "bad.toml:9:26:",
+            "`probability` = \"votes\" is not one of: logistic, vote_share",
+        ],
+    );
+    expect(
+        &format!("{HEAD}{DATA}{family}params = {{ probability = 1 }}\n"),
+        &["must be one of the strings \"logistic\", \"vote_share\", found integer"],
+    );
+}

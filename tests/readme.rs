@@ -55,6 +55,15 @@ fn the_family_table_agrees_with_the_registry() {
             let real = match p.default {
                 ParamValue::Float(x) => x,
                 ParamValue::Int(i) => i as f64,
+                ParamValue::Choice(c) => {
+                    assert_eq!(
+                        value.trim_matches('"'),
+                        c,
+                        "README row `{}` quotes `{name}` ({value}), but its default is \"{c}\"",
+                        family.kind
+                    );
+                    continue;
+                }
             };
             let said: f64 = value.parse().unwrap_or_else(|_| {
                 panic!(

@@ -131,5 +131,6 @@ fn param_value(v: &ParamValue) -> String {
     match v {
         ParamValue::Float(x) => format!("{x:?}"),
         ParamValue::Int(i) => format!("{i}"),
+        ParamValue::Choice(c) => format!("\"{c}\""),
     }
 }

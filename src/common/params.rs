@@ -15,6 +15,8 @@ pub enum ParamKind {
     Float { min: f64, max: f64 },
     /// An integer in `[min, max]`.
     Int { min: i64, max: i64 },
+    /// One of a few named conventions.
+    Choice(&'static [&'static str]),
 }
 
 /// One documented parameter of a registry entry.
@@ -32,6 +34,7 @@ pub struct ParamSpec {
 pub enum ParamValue {
     Float(f64),
     Int(i64),
+    Choice(&'static str),
 }
 
 /// Fully resolved parameters: every declared name present, user values
@@ -55,7 +58,7 @@ impl Params {
         match self.0.get(name) {
             Some(ParamValue::Float(v)) => *v,
             Some(ParamValue::Int(v)) => *v as f64,
-            None => panic!("parameter `{name}` is not declared"),
+            _ => panic!("number parameter `{name}` is not declared"),
         }
     }
 
@@ -64,6 +67,14 @@ impl Params {
         match self.0.get(name) {
             Some(ParamValue::Int(v)) => *v,
             _ => panic!("integer parameter `{name}` is not declared"),
+        }
+    }
+
+    /// A choice parameter; declared parameters are always present.
+    pub fn choice(&self, name: &str) -> &'static str {
+        match self.0.get(name) {
+            Some(ParamValue::Choice(v)) => v,
+            _ => panic!("choice parameter `{name}` is not declared"),
         }
     }
 }
@@ -86,6 +97,27 @@ pub fn check(spec: &ParamSpec, value: &toml::Value) -> Result<ParamValue, String
                 Ok(ParamValue::Int(*v))
             }
         }
+        (ParamKind::Choice(options), toml::Value::String(v)) => options
+            .iter()
+            .find(|o| **o == v.as_str())
+            .map(|o| ParamValue::Choice(o))
+            .ok_or_else(|| {
+                format!(
+                    "parameter `{}` = \"{v}\" is not one of: {}",
+                    spec.name,
+                    options.join(", ")
+                )
+            }),
+        (ParamKind::Choice(options), other) => Err(format!(
+            "parameter `{}` must be one of the strings {}, found {}",
+            spec.name,
+            options
+                .iter()
+                .map(|o| format!("\"{o}\""))
+                .collect::<Vec<_>>()
+                .join(", "),
+            other.type_str()
+        )),
         (ParamKind::Float { .. }, other) => Err(format!(
             "parameter `{}` must be a number, found {}",
             spec.name,

@@ -9,6 +9,15 @@
 //! F_k = sum alpha [h = k]; probabilities are softmax(F / (K - 1)), the
 //! multiclass form of the same correction, with F / (K - 1) as the logits.
 //! Boosting stops early when a stump is no better than chance or perfect.
+//!
+//! The raw probability is a convention, and the two in common use tell
+//! opposite raw stories: the logistic correction above (the default) tends
+//! to read over-confident, while the weighted vote share, p = (1 + F / sum
+//! alpha) / 2 for two classes and F_k / sum alpha in general, is squeezed
+//! towards the middle and reads strongly under-confident.
+//! `probability = "vote_share"` selects the second, so a team can compare
+//! like with like; the native score the calibrators read is the same under
+//! both, and after calibration the two agree.
 
 use super::tree::{grow, Binned, Growth, Rows, Tree};
 use super::{Family, Learner, Model};
@@ -20,31 +29,46 @@ use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {
     kind: "boosted_stumps",
-    about: "AdaBoost on stumps (SAMME for multiclass), logistic correction p = 1/(1+exp(-2F))",
-    params: &[ParamSpec {
-        name: "rounds",
-        kind: ParamKind::Int {
-            min: 1,
-            max: 100_000,
+    about: "AdaBoost on stumps (SAMME for multiclass), logistic correction p = 1/(1+exp(-2F)) by default",
+    params: &[
+        ParamSpec {
+            name: "rounds",
+            kind: ParamKind::Int {
+                min: 1,
+                max: 100_000,
+            },
+            default: ParamValue::Int(200),
+            about: "boosting rounds (stumps)",
         },
-        default: ParamValue::Int(200),
-        about: "boosting rounds (stumps)",
-    }],
+        ParamSpec {
+            name: "probability",
+            kind: ParamKind::Choice(&[LOGISTIC, VOTE_SHARE]),
+            default: ParamValue::Choice(LOGISTIC),
+            about: "raw probability convention: \"logistic\" (p = 1/(1+exp(-2F))) or \"vote_share\" (each class's share of the stump weights)",
+        },
+    ],
     build: |p| {
         Box::new(Boosting {
             rounds: p.int("rounds") as usize,
+            vote_share: p.choice("probability") == VOTE_SHARE,
         })
     },
     revision: 0,
 };
 
+/// The two raw probability conventions.
+pub const LOGISTIC: &str = "logistic";
+pub const VOTE_SHARE: &str = "vote_share";
+
 struct Boosting {
     rounds: usize,
+    vote_share: bool,
 }
 
 struct Fitted {
     stumps: Vec<(Tree, f64)>,
     n_classes: usize,
+    vote_share: bool,
 }
 
 /// The stump's predicted class for a row (its leaf's most frequent class;
@@ -130,7 +154,11 @@ impl Learner for Boosting {
                 "boosting found no stump better than chance on this training split".into(),
             ));
         }
-        Ok(Box::new(Fitted { stumps, n_classes }))
+        Ok(Box::new(Fitted {
+            stumps,
+            n_classes,
+            vote_share: self.vote_share,
+        }))
     }
 }
 
@@ -143,17 +171,29 @@ impl Model for Fitted {
                 out[vote(tree, row)] += alpha;
             }
         }
+        // Each stump votes its weight for one class, so the votes of a row
+        // sum to the total weight.
+        let total: f64 = self.stumps.iter().map(|(_, a)| a).sum();
+        let shares = || f.mapv(|v| v / total);
         if k == 2 {
             // F = sum alpha h with h = +1 for class 1 and -1 for class 0.
             let two_f: Vec<f64> = f.rows().into_iter().map(|r| 2.0 * (r[1] - r[0])).collect();
             Scores {
-                proba: binary_from_log_odds(&two_f),
+                proba: if self.vote_share {
+                    shares()
+                } else {
+                    binary_from_log_odds(&two_f)
+                },
                 native: Some(Array1::from(two_f).insert_axis(ndarray::Axis(1))),
             }
         } else {
-            let logits = f / (k as f64 - 1.0);
+            let logits = &f / (k as f64 - 1.0);
             Scores {
-                proba: softmax_rows(&logits),
+                proba: if self.vote_share {
+                    shares()
+                } else {
+                    softmax_rows(&logits)
+                },
                 native: Some(logits),
             }
         }

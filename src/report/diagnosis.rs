@@ -151,6 +151,8 @@ pub fn table(results: &Results) -> Table {
         1.0 - SLOPE_MARGIN
     ));
     t.notes.push("Slope, intercept and gap are fold means of the raw model. Binary datasets read the positive-class forecast, multiclass datasets the top-label confidence.".into());
+    t.notes
+        .extend(convention_notes(&results.exp.families, &results.info));
     let has = [
         "calibration_slope",
         "calibration_intercept",
@@ -202,6 +204,43 @@ pub fn table(results: &Results) -> Table {
     t
 }
 
+/// For families whose raw probability is one of several conventions (boosted
+/// stumps), which one these results used, since the raw diagnosis depends
+/// on it while calibrated results do not. `info` is `run.json`, where the
+/// checked parameters are recorded.
+fn convention_notes(
+    families: &[crate::experiment::manifest::FamilySpec],
+    info: &serde_json::Value,
+) -> Vec<String> {
+    families
+        .iter()
+        .enumerate()
+        .filter(|(_, f)| f.kind == "boosted_stumps")
+        .map(|(i, f)| {
+            let used = info["settings"]["families"][i]["params"]["probability"]
+                .as_str()
+                .unwrap_or("logistic");
+            let (this, other, story) = if used == "vote_share" {
+                (
+                    "the weighted vote share, each class's share of the stump weights ((1 + F/sum alpha)/2 for two classes)",
+                    "logistic",
+                    "the logistic correction p = 1/(1+exp(-2F)) tends to read over-confident where the vote share reads under-confident",
+                )
+            } else {
+                (
+                    "the logistic correction p = 1/(1+exp(-2F)) (Friedman, Hastie & Tibshirani 2000)",
+                    "vote_share",
+                    "the weighted vote share squeezes forecasts towards the middle and reads strongly under-confident where this one tends to read over-confident",
+                )
+            };
+            format!(
+                "`{}` (boosted stumps): raw probabilities are {this}. The raw diagnosis depends on that convention ({story}); set `probability = \"{other}\"` in the family's params to compare like with like. The native score, and so every calibrated result, is the same under both.",
+                f.name
+            )
+        })
+        .collect()
+}
+
 /// How often each property holds over a family's datasets, counted
 /// separately: a row that is over-confident and biased down counts for
 /// both, so "over-confident in 13 of 14" means just that. Properties that
@@ -239,4 +278,37 @@ pub fn summarise(rows: &[Diagnosis]) -> String {
         .map(|(what, k)| format!("{what} in {k} of {n}"))
         .collect::<Vec<_>>()
         .join("; ")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::common::params::Params;
+    use crate::experiment::manifest::FamilySpec;
+
+    #[test]
+    fn boosted_stumps_state_their_probability_convention() {
+        let family = |name: &str, kind: &str| FamilySpec {
+            name: name.into(),
+            kind: kind.into(),
+            params: Params::default(),
+        };
+        let families = [family("lr", "logistic"), family("ada", "boosted_stumps")];
+        let info = serde_json::json!({"settings": {"families": [
+            {"params": {"l2": 1.0}},
+            {"params": {"rounds": 200, "probability": "logistic"}}
+        ]}});
+        let notes = convention_notes(&families, &info);
+        assert_eq!(notes.len(), 1);
+        assert!(notes[0]
+            .starts_with("`ada` (boosted stumps): raw probabilities are the logistic correction"));
+        assert!(notes[0].contains("probability = \"vote_share\""));
+        let info = serde_json::json!({"settings": {"families": [
+            {"params": {}},
+            {"params": {"rounds": 200, "probability": "vote_share"}}
+        ]}});
+        let notes = convention_notes(&families, &info);
+        assert!(notes[0].contains("the weighted vote share"), "{}", notes[0]);
+        assert!(notes[0].contains("probability = \"logistic\""));
+    }
 }
