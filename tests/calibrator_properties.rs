@@ -250,7 +250,8 @@ fn outlying_log_odds(seed: u64) -> (Vec<f64>, Vec<usize>) {
 
 #[test]
 fn platt_never_reverses_the_ranking_of_extreme_scores() {
-    // Platt (1999) fits p = 1 / (1 + exp(A f + B)) by maximum likelihood; on
+    // platt-order in docs/methods.md. Platt (1999) fits
+    // p = 1 / (1 + exp(A f + B)) by maximum likelihood; on
     // scores like these the unconstrained optimum has the wrong sign of A,
     // so the "calibrated" forecasts would rank every row backwards
     // (AUC -> 1 - AUC). The map must keep the order of the scores, and say
@@ -305,7 +306,8 @@ fn a_reversed_platt_slope_is_held_at_zero_with_a_warning() {
 
 #[test]
 fn beta_falls_back_on_two_valued_scores() {
-    // Kull, Silva Filho & Flach (2017) fit three parameters; scores with two
+    // beta-two-values in docs/methods.md. Kull, Silva Filho & Flach (2017)
+    // fit three parameters; scores with two
     // distinct values (a small tree, kNN with k = 1) cannot identify them.
     // The fit must not fail the cell: it fits what the data can carry and
     // records a warning.

@@ -48,7 +48,8 @@ fn a_truly_better_pair_is_found() {
 
 #[test]
 fn equal_pairs_are_tied_at_about_the_nominal_rate() {
-    // With no true difference and independent folds (ratio 0, so the
+    // paired-choice in docs/methods.md. With no true difference and
+    // independent folds (ratio 0, so the
     // interval is the plain paired t interval and exact for normal data), a
     // pair is called worse than the best in 5% of runs: the best is chosen
     // by its mean, and the two-sided interval excludes 0 exactly when

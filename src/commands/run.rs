@@ -57,7 +57,7 @@ pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status
     }
     if done.fallbacks > 0 {
         out.note(format!(
-            "note: {} method result(s) took a documented fallback (a single class or equal scores in a calibration fold, separated scores); see \"warnings\" in {}/records.jsonl",
+            "note: {} method result(s) took a documented fallback or safeguard (a single class or equal scores in a calibration fold, separated scores, outlying scores clipped, a Platt slope held at 0); see \"warnings\" in {}/records.jsonl",
             done.fallbacks,
             out_dir.display()
         ));
