@@ -114,7 +114,7 @@ fn flattened_fixture() -> (tempfile::TempDir, std::path::PathBuf) {
 fn calibration_that_loses_discrimination_is_never_best_unflagged() {
     let (_tmp, dir) = flattened_fixture();
     let opts = ReportOptions {
-        metric: "ece".into(),
+        metric: Some("ece".into()),
         png: false,
     };
     report::generate(&dir, &opts).unwrap();

@@ -261,7 +261,7 @@ fn a_folder_without_results_is_a_clear_error() {
     let err = report::generate(
         &dir,
         &ReportOptions {
-            metric: "sharpness".into(),
+            metric: Some("sharpness".into()),
             ..Default::default()
         },
     )
@@ -310,7 +310,7 @@ fn html_report_renders_in_headless_chromium() {
 fn another_deciding_metric_gets_its_own_column_and_direction() {
     let (_tmp, dir) = fixture();
     let opts = ReportOptions {
-        metric: "auc".into(),
+        metric: Some("auc".into()),
         ..Default::default()
     };
     report::generate(&dir, &opts).unwrap();

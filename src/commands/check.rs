@@ -3,7 +3,10 @@
 
 use super::{Output, Status};
 use crate::common::error::Result;
+use crate::common::files::check_writable_dir;
 use crate::experiment::{manifest, runner};
+use crate::gate::baseline;
+use crate::report::deciding_metric;
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
@@ -15,11 +18,37 @@ pub struct CheckArgs {
     /// Folder holding the bundled datasets and their catalog.json.
     #[arg(long, value_name = "DIR")]
     pub datasets: Option<PathBuf>,
+    /// The report's deciding metric to check against the manifest's
+    /// `metrics` [default: brier, else log_loss, else the first computed].
+    #[arg(short, long)]
+    pub metric: Option<String>,
+    /// A gate baseline whose rules must fit the manifest's metrics,
+    /// datasets, families and methods.
+    #[arg(short, long, value_name = "FILE")]
+    pub baseline: Option<PathBuf>,
+    /// The results folder a run would write [default: results/<experiment
+    /// name>]; checked to be writable.
+    #[arg(short, long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
 }
 
 /// Describes each dataset and the cells a run would compute.
 pub fn execute(args: CheckArgs, out: &mut Output) -> Result<Status> {
     let exp = manifest::load(&args.manifest)?;
+    // Everything a run would refuse, refused before any data is read.
+    let (metric, why) = deciding_metric(args.metric.as_deref(), &exp.metrics)?;
+    if let Some(why) = why {
+        out.note(format!("note: {why}"));
+    }
+    let out_dir = args
+        .out
+        .clone()
+        .unwrap_or_else(|| PathBuf::from("results").join(&exp.name));
+    check_writable_dir(&out_dir)?;
+    let rules = match &args.baseline {
+        Some(b) => Some((b, baseline::check_against(b, &exp)?)),
+        None => None,
+    };
     let tables = runner::load_datasets(&exp, args.datasets.as_deref())?;
     for t in &tables {
         for w in &t.warnings {
@@ -40,6 +69,15 @@ pub fn execute(args: CheckArgs, out: &mut Output) -> Result<Status> {
             counts.join(", ")
         );
     }
+    if let Some((b, n)) = rules {
+        let _ = writeln!(out.text, "{}: {n} rules fit this manifest", b.display());
+    }
+    let _ = writeln!(
+        out.text,
+        "report: \"best\" and the ranking by {}; results in {}",
+        metric.name,
+        out_dir.display()
+    );
     let e = exp.evaluation;
     let _ = writeln!(
         out.text,

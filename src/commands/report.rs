@@ -12,9 +12,10 @@ use std::path::PathBuf;
 pub struct ReportArgs {
     /// The results folder `candor run` wrote.
     pub results: PathBuf,
-    /// Metric that decides "best" and the ranking.
-    #[arg(short, long, default_value = "brier")]
-    pub metric: String,
+    /// Metric that decides "best" and the ranking
+    /// [default: brier, else log_loss, else the first computed].
+    #[arg(short, long)]
+    pub metric: Option<String>,
     /// Also write PNG copies of the figures.
     #[arg(long)]
     pub png: bool,

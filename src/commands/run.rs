@@ -6,7 +6,7 @@ use crate::common::error::Result;
 use crate::experiment::manifest;
 use crate::experiment::runner::{self, RunOptions};
 use crate::export::{Exporter, Text};
-use crate::report::{self, ReportOptions};
+use crate::report::{self, deciding_metric, ReportOptions};
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
@@ -30,9 +30,10 @@ pub struct RunArgs {
     /// No progress bar and no table; errors only.
     #[arg(long, short)]
     pub quiet: bool,
-    /// Metric that decides "best" and the ranking in the report.
-    #[arg(short, long, default_value = "brier")]
-    pub metric: String,
+    /// Metric that decides "best" and the ranking in the report
+    /// [default: brier, else log_loss, else the first computed].
+    #[arg(short, long)]
+    pub metric: Option<String>,
     /// Also write PNG copies of the report's figures.
     #[arg(long)]
     pub png: bool,
@@ -42,6 +43,11 @@ pub struct RunArgs {
 /// (the binary passes whether that is a terminal).
 pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status> {
     let exp = manifest::load(&args.manifest)?;
+    // Checked before any training: a bad --metric costs seconds, not a run.
+    let (_, why) = deciding_metric(args.metric.as_deref(), &exp.metrics)?;
+    if let Some(why) = why {
+        out.note(format!("note: {why}"));
+    }
     let out_dir = args
         .out
         .unwrap_or_else(|| PathBuf::from("results").join(&exp.name));

@@ -27,3 +27,35 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
         Error::io(path, "write", &e)
     })
 }
+
+/// Checks, without creating anything that stays, that a folder could be
+/// made or written at `dir`: the folder itself if it exists, else its
+/// nearest existing ancestor. So `candor check` can refuse an output
+/// folder in seconds, as a run would before its first cell.
+pub fn check_writable_dir(dir: &Path) -> Result<()> {
+    let fail = |why: String| {
+        Error::Io(format!(
+            "{}: cannot write results there: {why}; choose another folder with --out",
+            dir.display()
+        ))
+    };
+    let mut at = dir;
+    while !at.exists() {
+        match at.parent() {
+            Some(p) if !p.as_os_str().is_empty() => at = p,
+            _ => {
+                at = Path::new(".");
+                break;
+            }
+        }
+    }
+    if !at.is_dir() {
+        return Err(fail(format!("{} is not a folder", at.display())));
+    }
+    let probe = at.join(format!(".candor-probe.{}", std::process::id()));
+    std::fs::File::create(&probe)
+        .map_err(|e| fail(e.to_string()))
+        .map(|_| {
+            let _ = std::fs::remove_file(&probe);
+        })
+}

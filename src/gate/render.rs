@@ -8,6 +8,9 @@ use std::fmt::Write as _;
 /// A short summary for people.
 pub fn human(o: &Outcome) -> String {
     let mut s = String::new();
+    for n in &o.notes {
+        let _ = writeln!(s, "note: {n}");
+    }
     for c in &o.checks {
         let mark = if c.failures.is_empty() {
             "ok  "
@@ -33,10 +36,14 @@ pub fn human(o: &Outcome) -> String {
 /// Markdown for a CI job summary.
 pub fn markdown(o: &Outcome) -> String {
     let mut s = format!(
-        "### candor gate: {} ({})\n\n| result | rule | rows | details |\n|---|---|---|---|\n",
+        "### candor gate: {} ({})\n\n",
         o.experiment,
         if o.passed() { "passed" } else { "regression" }
     );
+    for n in &o.notes {
+        let _ = writeln!(s, "> {n}\n");
+    }
+    s.push_str("| result | rule | rows | details |\n|---|---|---|---|\n");
     for c in &o.checks {
         let details = c.failures.join("<br>").replace('|', "\\|");
         let _ = writeln!(

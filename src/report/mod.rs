@@ -33,23 +33,69 @@ use crate::export::TABLE_FORMATS;
 use std::path::{Path, PathBuf};
 
 /// Choices a reader can make about the report.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, Default)]
 pub struct ReportOptions {
-    /// The metric that decides "best" and the ranking; a proper scoring
-    /// rule (Brier) by default, because calibration error alone rewards a
-    /// model that always predicts the base rate.
-    pub metric: String,
+    /// The metric that decides "best" and the ranking; `None` picks one
+    /// with [`deciding_metric`].
+    pub metric: Option<String>,
     /// Also write PNG copies of the figures.
     pub png: bool,
 }
 
-impl Default for ReportOptions {
-    fn default() -> Self {
-        ReportOptions {
-            metric: "brier".into(),
-            png: false,
+/// The metrics preferred to decide "best" when none is named, in order:
+/// proper scoring rules first, because calibration error alone rewards a
+/// model that always predicts the base rate.
+const PREFERRED: [&str; 2] = ["brier", "log_loss"];
+
+/// The metric that decides "best" and the ranking, from the one asked for
+/// (which must be known and among `computed`) or, when none is, the first
+/// of Brier score and log loss that was computed, else the first computed
+/// metric with a better direction. The second value says why, when the
+/// choice was not the usual Brier score. Runs check this before any
+/// training, so a bad `--metric` costs seconds, not a whole run.
+pub fn deciding_metric(
+    asked: Option<&str>,
+    computed: &[String],
+) -> Result<(&'static crate::metrics::Metric, Option<String>)> {
+    let has = |m: &str| computed.iter().any(|x| x == m);
+    if let Some(name) = asked {
+        let Some(metric) = crate::metrics::find(name) else {
+            return Err(Error::Manifest(format!(
+                "--metric {name}: unknown metric; choose one of: {}",
+                crate::metrics::known_metrics()
+            )));
+        };
+        if !has(name) {
+            return Err(Error::Manifest(format!(
+                "--metric {name}: the manifest's `metrics` do not include it; choose one of: {}, or add it to `metrics`",
+                computed.join(", ")
+            )));
         }
+        return Ok((metric, None));
     }
+    let pick = PREFERRED
+        .iter()
+        .copied()
+        .find(|m| has(m))
+        .or_else(|| {
+            computed
+                .iter()
+                .map(String::as_str)
+                .find(|m| crate::metrics::find(m).is_some_and(|x| x.higher_is_better.is_some()))
+        })
+        .or_else(|| computed.first().map(String::as_str));
+    let Some(metric) = pick.and_then(crate::metrics::find) else {
+        return Err(Error::Manifest(
+            "these results computed no metric that can decide \"best\"; list `brier` in the manifest's `metrics`".into(),
+        ));
+    };
+    let why = (metric.name != PREFERRED[0]).then(|| {
+        format!(
+            "\"best\" and the ranking use {} (brier was not computed; choose another with --metric)",
+            metric.name
+        )
+    });
+    Ok((metric, why))
 }
 
 /// A finished results folder, read back.
@@ -155,7 +201,7 @@ impl Results {
 
 /// Test rows over training rows, averaged over cells, for the corrected
 /// fold interval.
-fn test_over_train(cells: &[&CellRecord]) -> f64 {
+pub fn test_over_train(cells: &[&CellRecord]) -> f64 {
     let n = cells.len().max(1) as f64;
     cells
         .iter()
@@ -186,25 +232,16 @@ pub struct Report {
 
 /// Builds the report for a results folder.
 pub fn build(results: &Results, opts: &ReportOptions) -> Result<Report> {
-    let Some(metric) = crate::metrics::find(&opts.metric) else {
-        return Err(Error::Manifest(format!(
-            "--metric {}: unknown metric; choose one of: {}",
-            opts.metric,
-            crate::metrics::known_metrics()
-        )));
-    };
-    if !results.exp.metrics.iter().any(|m| m == metric.name) {
-        return Err(Error::Manifest(format!(
-            "--metric {}: these results did not compute it; choose one of: {}",
-            metric.name,
-            results.exp.metrics.join(", ")
-        )));
-    }
+    let (metric, why) = deciding_metric(opts.metric.as_deref(), &results.exp.metrics)?;
     let intervals = tables::intervals(results);
     let mut all = vec![
         tables::metric_table(results, &intervals),
         tables::family_table(results, metric, &intervals),
-        tables::dataset_table(results, metric, &intervals),
+        {
+            let mut t = tables::dataset_table(results, metric, &intervals);
+            t.notes.splice(0..0, why);
+            t
+        },
         choices::table(results, metric),
     ];
     let diagnoses = diagnosis::table(results);
