@@ -198,9 +198,9 @@ fn rows_that_disappear_fail_and_new_rows_are_listed() {
         "{out}"
     );
     for row in [
-        "heart / mlp / none: missing",
-        "credit / logreg / none: missing",
-        "penguins / nbayes / isotonic: missing",
+        "family mlp: all 12 of its accepted rows are missing",
+        "dataset credit: all 16 of its accepted rows are missing",
+        "method isotonic: all 12 of its accepted rows are missing",
     ] {
         assert!(out.contains(row), "{row}: {out}");
     }

@@ -147,7 +147,7 @@ pub const METHODS: &[Method] = &[
         name: "platt",
         about: "Platt scaling, fitted with the Lin-Lin-Weng Newton method on the native score",
         build: |_| Box::new(OneVsRest(Platt)),
-        revision: 1,
+        revision: 2,
     },
     Method {
         name: "isotonic",

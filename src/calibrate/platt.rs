@@ -7,10 +7,13 @@
 //!
 //! - **Extreme scores are clipped.** One slope serves every row, so a few
 //!   scores far outside the rest (naive Bayes log-odds of 1e9 beside a bulk
-//!   within ±10) would set it alone. Scores are clipped to Tukey's outer
-//!   fences of the calibration scores, [Q1 - 3 IQR, Q3 + 3 IQR] (Tukey 1977,
-//!   "far out" values), before the fit, and the same bounds apply to every
-//!   score the map is later given. Nothing is clipped when the IQR is 0.
+//!   within ±10) would set it alone. Each class's calibration scores have
+//!   Tukey's outer fences, [Q1 - 3 IQR, Q3 + 3 IQR] (Tukey 1977, "far out"
+//!   values); scores beyond the union of the two classes' fences are
+//!   clipped to it before the fit, and the same bounds apply to every score
+//!   the map is later given. Fences per class, not pooled, because on
+//!   imbalanced data the minority class's scores lie far from the bulk by
+//!   design.
 //! - **The slope keeps the order.** A map meant to be monotone must not
 //!   rank rows backwards, so A is constrained to A <= 0 (forecasts rise
 //!   with the score). The log-likelihood is concave, so when its maximum
@@ -40,26 +43,54 @@ pub struct PlattMap {
     pub flat: bool,
 }
 
-/// Tukey's outer fences of the scores, or infinite bounds when the IQR is 0
-/// (or the sample too small to have quartiles).
-fn fences(f: &[f64]) -> (f64, f64) {
-    let mut sorted: Vec<f64> = f.iter().copied().filter(|v| v.is_finite()).collect();
-    if sorted.len() < 4 {
-        return (f64::NEG_INFINITY, f64::INFINITY);
-    }
-    sorted.sort_by(f64::total_cmp);
-    // Quartiles by linear interpolation between order statistics (type 7
-    // of Hyndman & Fan 1996, the default of R and numpy).
+/// Quartiles of a sample by linear interpolation between order statistics
+/// (type 7 of Hyndman & Fan 1996, the default of R and numpy).
+fn quartiles(sorted: &[f64]) -> (f64, f64) {
     let q = |p: f64| {
         let h = p * (sorted.len() - 1) as f64;
         let i = h.floor() as usize;
         let j = (i + 1).min(sorted.len() - 1);
         sorted[i] + (h - i as f64) * (sorted[j] - sorted[i])
     };
-    let (q1, q3) = (q(0.25), q(0.75));
-    let iqr = q3 - q1;
-    if iqr > 0.0 {
-        (q1 - 3.0 * iqr, q3 + 3.0 * iqr)
+    (q(0.25), q(0.75))
+}
+
+/// The clipping bounds: the union over the two classes of each class's
+/// Tukey outer fences, [Q1 - 3 IQR, Q3 + 3 IQR]. A class with fewer than
+/// four scores or an IQR of 0 contributes its whole range instead, so its
+/// scores are never clipped. A score is clipped only when it is far out for
+/// both classes: the minority class's scores on imbalanced data stay whole,
+/// however far they lie from the majority's.
+fn fences(f: &[f64], labels: &[bool]) -> (f64, f64) {
+    let (mut low, mut high) = (f64::INFINITY, f64::NEG_INFINITY);
+    for class in [false, true] {
+        let mut sorted: Vec<f64> = f
+            .iter()
+            .zip(labels)
+            .filter(|(v, &l)| l == class && v.is_finite())
+            .map(|(&v, _)| v)
+            .collect();
+        if sorted.is_empty() {
+            continue;
+        }
+        sorted.sort_by(f64::total_cmp);
+        let (min, max) = (sorted[0], sorted[sorted.len() - 1]);
+        let (lo, hi) = if sorted.len() >= 4 {
+            let (q1, q3) = quartiles(&sorted);
+            let iqr = q3 - q1;
+            if iqr > 0.0 {
+                (q1 - 3.0 * iqr, q3 + 3.0 * iqr)
+            } else {
+                (min, max)
+            }
+        } else {
+            (min, max)
+        };
+        low = low.min(lo);
+        high = high.max(hi);
+    }
+    if low <= high {
+        (low, high)
     } else {
         (f64::NEG_INFINITY, f64::INFINITY)
     }
@@ -95,7 +126,7 @@ impl PlattMap {
     /// on the gradient, whose first entry grows with the scores, then works
     /// at the intended precision instead of stalling far from it.
     pub fn fit(f: &[f64], labels: &[bool]) -> PlattMap {
-        let (low, high) = fences(f);
+        let (low, high) = fences(f, labels);
         let clipped = f.iter().filter(|&&v| v < low || v > high).count();
         let f: Vec<f64> = f.iter().map(|v| v.clamp(low, high)).collect();
         let scale = f.iter().fold(0.0f64, |m, v| m.max(v.abs()));
@@ -204,7 +235,7 @@ impl BinaryMap for PlattMap {
         let mut said = Vec::new();
         if self.clipped > 0 {
             said.push(format!(
-                "platt: {} calibration score(s) beyond Tukey's outer fences were clipped to [{:.4}, {:.4}] before the fit",
+                "platt: {} calibration score(s) beyond both classes' Tukey outer fences were clipped to [{:.4}, {:.4}] before the fit",
                 self.clipped, self.low, self.high
             ));
         }

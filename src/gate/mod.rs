@@ -147,6 +147,44 @@ fn judge_change(
     })
 }
 
+/// One line per missing part: a family, dataset or method whose accepted
+/// rows are all gone is named once, other rows one by one.
+fn missing_rows(accepted: &[String], current: &[String]) -> Vec<String> {
+    let split = |k: &String| -> Option<[String; 3]> {
+        let p: Vec<&str> = k.split(" / ").collect();
+        (p.len() == 3).then(|| [p[0].to_string(), p[1].to_string(), p[2].to_string()])
+    };
+    let missing: Vec<[String; 3]> = accepted
+        .iter()
+        .filter(|k| !current.contains(k))
+        .filter_map(split)
+        .collect();
+    let mut left = missing.clone();
+    let all: Vec<[String; 3]> = accepted.iter().filter_map(split).collect();
+    let hint = "if it was dropped on purpose, accept the removal with --update";
+    let mut out = Vec::new();
+    for (part, what) in [(1, "family"), (0, "dataset"), (2, "method")] {
+        let mut names: Vec<String> = left.iter().map(|r| r[part].clone()).collect();
+        names.sort();
+        names.dedup();
+        for name in names {
+            let of_it = all.iter().filter(|r| r[part] == name).count();
+            let gone = missing.iter().filter(|r| r[part] == name).count();
+            if gone == of_it && gone > 1 {
+                out.push(format!(
+                    "{what} {name}: all {gone} of its accepted rows are missing; {hint}"
+                ));
+                left.retain(|r| r[part] != name);
+            }
+        }
+    }
+    out.extend(
+        left.iter()
+            .map(|r| format!("{} / {} / {}: missing; {hint}", r[0], r[1], r[2])),
+    );
+    out
+}
+
 /// Checks the results against the baseline's rules.
 pub fn check(results: &Results, baseline: &Path) -> Result<Outcome> {
     let (file, _) = parse(baseline)?;
@@ -174,21 +212,10 @@ pub fn check(results: &Results, baseline: &Path) -> Result<Outcome> {
     let mut notes = Vec::new();
     let mut checks = Vec::new();
 
-    let missing: Vec<&String> = accepted_rows
-        .iter()
-        .filter(|k| !current_keys.contains(k))
-        .collect();
     let mut rows_check = Check {
         rule: "every accepted row is still in the results".into(),
         rows: accepted_rows.len(),
-        failures: missing
-            .iter()
-            .map(|k| {
-                format!(
-                    "{k}: missing; if it was dropped on purpose, accept the removal with --update"
-                )
-            })
-            .collect(),
+        failures: missing_rows(accepted_rows, &current_keys),
     };
     let new: Vec<&String> = current_keys
         .iter()
