@@ -104,8 +104,10 @@ fn score_reports_the_demo_and_finds_its_known_flaws() {
     };
     assert!(row("deliveries,").contains("over-confident"), "{diag}");
     // Segments are not datasets: the counts run over the one file, the
-    // ranking needs independent datasets, and each region has its own row
-    // in the segments table, diagnosis included.
+    // ranking needs independent datasets (Demšar 2006: the Friedman test
+    // treats datasets as independent samples, which segments of one file
+    // are not), and each region has its own row in the segments table,
+    // diagnosis included.
     let all = row("all datasets");
     assert!(all.contains("over-confident in 1 of 1"), "{all}");
     assert!(!diag.contains("region="), "{diag}");

@@ -341,3 +341,97 @@ pub fn check(results: &Results, baseline: &Path) -> Result<Outcome> {
         checks,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn rule(tolerance: Option<f64>, max_change: Option<f64>, metric: &str) -> baseline::Rule {
+        baseline::Rule {
+            name: None,
+            metric: metric.into(),
+            dataset: None,
+            family: None,
+            method: None,
+            max: None,
+            min: None,
+            whole_interval: false,
+            tolerance,
+            max_change,
+        }
+    }
+
+    fn accepted(folds: &[f64]) -> Accepted {
+        let mean = folds.iter().sum::<f64>() / folds.len() as f64;
+        Accepted {
+            dataset: "d".into(),
+            family: "f".into(),
+            method: "m".into(),
+            metric: "brier".into(),
+            mean,
+            low: mean - 0.05,
+            high: mean + 0.05,
+            folds: folds.to_vec(),
+        }
+    }
+
+    fn now(folds: &[f64]) -> Interval {
+        let mean = folds.iter().sum::<f64>() / folds.len() as f64;
+        Interval {
+            mean,
+            low: mean - 0.05,
+            high: mean + 0.05,
+            change: 0.0,
+            change_low: 0.0,
+            change_high: 0.0,
+        }
+    }
+
+    #[test]
+    fn a_small_steady_loss_fails_paired_but_not_unpaired() {
+        // Every fold 0.01 worse, folds varying by 0.05: the intervals of the
+        // two runs overlap, the per-fold differences do not reach 0.
+        let was = [0.10, 0.15, 0.20, 0.12, 0.18];
+        let is: Vec<f64> = was.iter().map(|v| v + 0.01).collect();
+        let r = rule(Some(0.0), None, "brier");
+        let paired = judge_change(
+            &r,
+            &accepted(&was),
+            &now(&is),
+            &is,
+            0.25,
+            Comparison::Paired,
+        );
+        assert!(paired.is_some_and(|w| w.contains("fold by fold")));
+        let unpaired = judge_change(
+            &r,
+            &accepted(&was),
+            &now(&is),
+            &is,
+            0.25,
+            Comparison::Unpaired,
+        );
+        assert!(unpaired.is_none());
+    }
+
+    #[test]
+    fn max_change_limits_the_mean_change_in_the_worse_direction() {
+        let was = [0.10, 0.15, 0.20];
+        let worse: Vec<f64> = was.iter().map(|v| v + 0.01).collect();
+        let better: Vec<f64> = was.iter().map(|v| v - 0.05).collect();
+        let tight = rule(None, Some(0.005), "brier");
+        let loose = rule(None, Some(0.02), "brier");
+        let judge = |r: &baseline::Rule, f: &[f64]| {
+            judge_change(r, &accepted(&was), &now(f), f, 0.5, Comparison::Paired)
+        };
+        assert!(judge(&tight, &worse).is_some_and(|w| w.contains("max_change 0.005")));
+        assert!(judge(&loose, &worse).is_none());
+        assert!(judge(&tight, &better).is_none());
+        // For AUC, higher is better: a fall is the worse direction.
+        let auc = rule(None, Some(0.005), "auc");
+        let mut a = accepted(&[0.90, 0.91, 0.92]);
+        a.metric = "auc".into();
+        let fell = [0.88, 0.89, 0.90];
+        assert!(judge_change(&auc, &a, &now(&fell), &fell, 0.5, Comparison::Paired).is_some());
+    }
+}
