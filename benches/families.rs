@@ -30,6 +30,8 @@ fn main() {
                 format: Default::default(),
                 origin: String::new(),
                 segment_of: None,
+                exclude: Vec::new(),
+                levels: Default::default(),
             };
             candor::data::source::load(&spec, Some(&catalog), &dir).expect("bundled dataset")
         })

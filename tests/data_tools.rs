@@ -207,3 +207,122 @@ fn list_shows_every_bundled_dataset_with_its_licence() {
     }
     assert!(out.contains("CC BY 4.0") && out.contains("PROVENANCE.md"));
 }
+
+/// A churn-like table as teams have it: a customer identifier, a
+/// continuous measurement with a new value in every row, a plan and the
+/// outcome.
+fn churn(dir: &Path) {
+    let mut csv = String::from("customer_id,spend,plan,churned\n");
+    for i in 0..400 {
+        let spend = 20.0 + (i as f64 * 0.7311).sin() * 15.0 + i as f64 * 0.001;
+        let plan = ["basic", "plus", "pro"][i % 3];
+        let churned = if (i * 7) % 10 < 3 { "yes" } else { "no" };
+        csv.push_str(&format!("cust{i:05},{spend:.4},{plan},{churned}\n"));
+    }
+    std::fs::write(dir.join("churn.csv"), csv).unwrap();
+}
+
+#[test]
+fn a_continuous_column_is_not_an_identifier_but_a_text_one_is() {
+    let tmp = tempfile::tempdir().unwrap();
+    churn(tmp.path());
+    let out = stdout(candor(tmp.path()).args([
+        "data",
+        "inspect",
+        "churn.csv",
+        "-t",
+        "churned",
+        "-p",
+        "yes",
+    ]));
+    assert!(
+        out.contains("column `customer_id` has a different value in every row"),
+        "{out}"
+    );
+    assert!(
+        !out.contains("column `spend` has a different value"),
+        "{out}"
+    );
+    // --exclude drops it before inspecting.
+    let out = stdout(candor(tmp.path()).args([
+        "data",
+        "inspect",
+        "churn.csv",
+        "-t",
+        "churned",
+        "-p",
+        "yes",
+        "--exclude",
+        "customer_id",
+    ]));
+    assert!(!out.contains("customer_id"), "{out}");
+}
+
+#[test]
+fn add_creates_a_manifest_beside_or_above_the_data_and_excludes_columns() {
+    let tmp = tempfile::tempdir().unwrap();
+    churn(tmp.path());
+    // No manifest yet, in a folder below the data: it is created, and the
+    // path steps up to the data.
+    let out = stdout(candor(tmp.path()).args([
+        "data",
+        "add",
+        "churn.csv",
+        "-t",
+        "churned",
+        "-p",
+        "yes",
+        "--to",
+        "experiments/my.toml",
+    ]));
+    assert!(out.contains("added dataset `churn`"), "{out}");
+    let text = std::fs::read_to_string(tmp.path().join("experiments/my.toml")).unwrap();
+    assert!(text.contains("name = \"my\""), "{text}");
+    assert!(text.contains("path = \"../churn.csv\""), "{text}");
+    // It runs as written; the identifier gets a note naming the fix.
+    let o = candor(tmp.path())
+        .args(["check", "experiments/my.toml"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{err}");
+    assert!(
+        err.contains("column `customer_id` has 400 distinct values in 400 rows"),
+        "{err}"
+    );
+    assert!(err.contains("exclude = [\"customer_id\"]"), "{err}");
+    // A second entry that leaves the identifier out.
+    stdout(candor(tmp.path()).args([
+        "data",
+        "add",
+        "churn.csv",
+        "-t",
+        "churned",
+        "-p",
+        "yes",
+        "--to",
+        "experiments/my.toml",
+        "--name",
+        "churn_clean",
+        "--exclude",
+        "customer_id",
+    ]));
+    let text = std::fs::read_to_string(tmp.path().join("experiments/my.toml")).unwrap();
+    assert!(text.contains("exclude = [\"customer_id\"]"), "{text}");
+    // An excluded name that is not a column is an error naming it.
+    std::fs::write(
+        tmp.path().join("bad.toml"),
+        "name = \"b\"\n[[dataset]]\nname = \"c\"\npath = \"churn.csv\"\ntarget = \"churned\"\npositive = \"yes\"\nexclude = [\"cust_id\"]\n[[family]]\nname = \"logistic\"\n",
+    )
+    .unwrap();
+    let o = candor(tmp.path())
+        .args(["check", "bad.toml"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(!o.status.success());
+    assert!(
+        err.contains("bad.toml:3:8: dataset `c`: `exclude` names `cust_id`"),
+        "{err}"
+    );
+}

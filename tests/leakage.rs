@@ -92,16 +92,26 @@ impl BinaryCalibrator for SpyCalibrator {
 }
 
 fn table(test_rows_poisoned: &[usize]) -> Table {
-    let mut csv = String::from("id,x,y\n");
+    let mut csv = String::from("id,x,shop,y\n");
     for i in 0..60 {
-        let x = if test_rows_poisoned.contains(&i) {
+        let poisoned = test_rows_poisoned.contains(&i);
+        let x = if poisoned {
             "1e12".to_string()
         } else if i % 7 == 0 {
             String::new() // missing: imputed with the training median
         } else {
             ((i * 37) % 100).to_string()
         };
-        csv.push_str(&format!("{},{x},{}\n", 1000 + i, i % 3 == 0));
+        // A categorical column whose level `rare` is too rare to keep its
+        // own column when counted on training rows only (the encoding's
+        // cap pools levels under 5 rows into `other`). Poisoned test rows
+        // all take it: counted with them, it would be kept.
+        let shop = if poisoned || (i % 20 == 1 && i < 60) {
+            "rare"
+        } else {
+            ["north", "south", "east"][i % 3]
+        };
+        csv.push_str(&format!("{},{x},{shop},{}\n", 1000 + i, i % 3 == 0));
     }
     parse_csv(csv.as_bytes(), "spy.csv", "y", None).unwrap()
 }
@@ -165,8 +175,8 @@ fn the_test_fold_is_never_seen_in_training_or_calibration() {
     assert_eq!(seen.calibrations, vec![train_ids]);
 
     // Poisoning the test rows' features changes nothing the training side
-    // sees, bit for bit: imputation and standardisation are fitted on
-    // training rows only.
+    // sees, bit for bit: imputation, the categorical levels and their cap,
+    // and standardisation are fitted on training rows only.
     let poisoned = table(&test);
     for standardise in [false, true] {
         let clean = run(&base, &train, &test, standardise);

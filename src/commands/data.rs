@@ -7,7 +7,7 @@ use crate::common::defaults;
 use crate::common::error::Result;
 use crate::data::csv::read_csv;
 use crate::data::inspect::inspect;
-use crate::experiment::manifest::append_dataset;
+use crate::experiment::add::{append_dataset, NewDataset};
 use crate::export::{Exporter, Text};
 use std::fmt::Write as _;
 use std::path::PathBuf;
@@ -29,6 +29,10 @@ pub enum DataCommand {
         /// Inner folds the data must support (`inner_folds` in a manifest).
         #[arg(long, default_value_t = defaults::INNER_FOLDS)]
         inner_folds: usize,
+        /// Feature columns to leave out, comma-separated (`exclude` in a
+        /// manifest).
+        #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
+        exclude: Vec<String>,
     },
     /// Check a CSV and append a dataset entry for it to a manifest,
     /// keeping the manifest's comments and layout.
@@ -37,9 +41,14 @@ pub enum DataCommand {
         file: PathBuf,
         #[command(flatten)]
         csv: CsvArgs,
-        /// The manifest to extend.
+        /// The manifest to extend; created, with two families to start
+        /// from, when it does not exist.
         #[arg(long, value_name = "MANIFEST")]
         to: PathBuf,
+        /// Feature columns to leave out, comma-separated: identifiers,
+        /// leaks, free text. Written as the entry's `exclude`.
+        #[arg(long, value_delimiter = ',', value_name = "COLUMNS")]
+        exclude: Vec<String>,
         /// The dataset's name in the manifest [default: the file name].
         #[arg(long)]
         name: Option<String>,
@@ -54,8 +63,12 @@ pub fn execute(command: DataCommand, out: &mut Output) -> Result<Status> {
             csv,
             outer_folds,
             inner_folds,
+            exclude,
         } => {
-            let table = read_csv(&file, &csv.target, csv.positive.as_deref(), &csv.format()?)?;
+            let mut table = read_csv(&file, &csv.target, csv.positive.as_deref(), &csv.format()?)?;
+            table
+                .exclude(&exclude)
+                .map_err(|m| crate::common::error::Error::Manifest(format!("--exclude: {m}")))?;
             let found = inspect(&table, outer_folds, inner_folds);
             out.text.push_str(&Text.render(&found.schema));
             out.text.push('\n');
@@ -74,16 +87,20 @@ pub fn execute(command: DataCommand, out: &mut Output) -> Result<Status> {
             csv,
             to,
             name,
+            exclude,
         } => {
             let format = csv.format()?;
             let table = read_csv(&file, &csv.target, csv.positive.as_deref(), &format)?;
             let entry = append_dataset(
                 &to,
-                &file,
-                name.as_deref(),
-                &csv.target,
-                csv.positive.as_deref(),
-                &format,
+                &NewDataset {
+                    file: &file,
+                    name: name.as_deref(),
+                    target: &csv.target,
+                    positive: csv.positive.as_deref(),
+                    format: &format,
+                    exclude: &exclude,
+                },
                 &table,
             )?;
             let _ = writeln!(

@@ -167,6 +167,7 @@ fn parse_stream(
         labels,
         classes,
         warnings,
+        levels: Default::default(),
     })
 }
 

@@ -136,7 +136,13 @@ pub fn inspect(table: &Table, outer: usize, inner: usize) -> Inspection {
         };
         let present = n - miss;
         let mut note = Vec::new();
-        let id_like = present > 20 && distinct == present;
+        // Only whole numbers and text can be identifiers: a measurement
+        // that varies continuously takes a new value in every row too.
+        let integer_like = match &c.data {
+            ColumnData::Numeric(v) => v.iter().all(|x| x.is_nan() || x.fract() == 0.0),
+            ColumnData::Categorical { .. } => true,
+        };
+        let id_like = present > 20 && distinct == present && integer_like;
         if copy {
             note.push("copy of the target");
             warnings.push(format!(
@@ -146,8 +152,8 @@ pub fn inspect(table: &Table, outer: usize, inner: usize) -> Inspection {
         } else if id_like {
             note.push("identifier?");
             warnings.push(format!(
-                "column `{}` has a different value in every row, like an identifier. Remove it unless it truly measures something; a model cannot generalise from it.",
-                c.name
+                "column `{}` has a different value in every row, like an identifier. Remove it with `exclude = [\"{}\"]` in the manifest's dataset entry (or --exclude) unless it truly measures something; a model cannot generalise from it.",
+                c.name, c.name
             ));
         } else if let Some(w) = separation(&c.data, &table.labels, k) {
             note.push("separates the classes");

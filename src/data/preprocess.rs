@@ -1,8 +1,12 @@
 //! Turning table columns into a numeric matrix, fitted on training rows only.
 //!
 //! Missing numbers take the training median, missing categories the training
-//! mode; categories become one-hot columns (a category unseen in training
-//! encodes as all zeros); scale-sensitive families also get each column
+//! mode; categories become one-hot columns, capped by the table's
+//! [`LevelCap`](super::table::LevelCap): the most frequent levels of the
+//! training rows keep their own column, and rare levels, levels beyond the
+//! cap and levels unseen in training share one "other" column (when no
+//! training row falls there, an unseen level encodes as all zeros);
+//! scale-sensitive families also get each column
 //! centred and scaled by the training mean and standard deviation. Columns
 //! that are constant on the training rows are left out, since they carry no
 //! information there and would divide by zero when scaled.
@@ -11,11 +15,29 @@ use super::table::{ColumnData, Table, MISSING_CODE};
 use crate::common::math::median;
 use ndarray::Array2;
 
+/// Raised whenever a change to the encoding changes results (1: categorical
+/// levels capped, rare levels pooled into "other"), so resumed runs do not
+/// reuse cells an earlier encoding made; part of every cell's fingerprint.
+pub const REVISION: u32 = 1;
+
 /// One output column: where it comes from and how it is shifted and scaled.
 #[derive(Debug, Clone, PartialEq)]
 enum Source {
-    Numeric { column: usize, fill: f64 },
-    Indicator { column: usize, code: u32, fill: u32 },
+    Numeric {
+        column: usize,
+        fill: f64,
+    },
+    Indicator {
+        column: usize,
+        code: u32,
+        fill: u32,
+    },
+    /// 1 for any level outside `kept` (rare, beyond the cap, or unseen).
+    Other {
+        column: usize,
+        kept: Vec<u32>,
+        fill: u32,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -46,6 +68,21 @@ impl Output {
                         codes[row]
                     };
                     f64::from(u8::from(c == code))
+                }
+                ColumnData::Numeric(_) => 0.0,
+            },
+            Source::Other {
+                column,
+                ref kept,
+                fill,
+            } => match &table.columns[column].data {
+                ColumnData::Categorical { codes, .. } => {
+                    let c = if codes[row] == MISSING_CODE {
+                        fill
+                    } else {
+                        codes[row]
+                    };
+                    f64::from(u8::from(kept.binary_search(&c).is_err()))
                 }
                 ColumnData::Numeric(_) => 0.0,
             },
@@ -84,14 +121,32 @@ impl Preprocessor {
                     else {
                         continue;
                     };
-                    for (code, &n) in counts.iter().enumerate() {
-                        if n > 0 {
-                            sources.push(Source::Indicator {
-                                column: c,
-                                code: code as u32,
-                                fill: fill as u32,
-                            });
-                        }
+                    // The most frequent levels with enough rows, ties to the
+                    // lower code, then back in code order.
+                    let cap = table.levels;
+                    let mut kept: Vec<usize> = (0..counts.len())
+                        .filter(|&i| counts[i] >= cap.min_rows.max(1))
+                        .collect();
+                    kept.sort_by(|&a, &b| counts[b].cmp(&counts[a]).then(a.cmp(&b)));
+                    kept.truncate(cap.max_levels);
+                    kept.sort_unstable();
+                    for &code in &kept {
+                        sources.push(Source::Indicator {
+                            column: c,
+                            code: code as u32,
+                            fill: fill as u32,
+                        });
+                    }
+                    let pooled = counts
+                        .iter()
+                        .enumerate()
+                        .any(|(i, &n)| n > 0 && kept.binary_search(&i).is_err());
+                    if pooled {
+                        sources.push(Source::Other {
+                            column: c,
+                            kept: kept.iter().map(|&k| k as u32).collect(),
+                            fill: fill as u32,
+                        });
                     }
                 }
             }
@@ -153,8 +208,12 @@ num,colour,y
 5,green,a
 ";
 
+    /// The tiny table, with every level kept (no minimum count), so the
+    /// tests see one column per level.
     fn table() -> Table {
-        parse_csv(CSV.as_bytes(), "t.csv", "y", Some("b")).unwrap()
+        let mut t = parse_csv(CSV.as_bytes(), "t.csv", "y", Some("b")).unwrap();
+        t.levels.min_rows = 1;
+        t
     }
 
     #[test]
@@ -202,5 +261,37 @@ num,colour,y
         // Rows 0 and 3 are both "red" and the numbers differ.
         let p = Preprocessor::fit(&t, &[0, 3], true);
         assert_eq!(p.width(), 1);
+    }
+
+    #[test]
+    fn a_many_level_column_is_capped_on_training_rows() {
+        // 3,000 distinct values, the last 300 rows sharing ten levels: only
+        // those ten reach the 5-row minimum on the training rows, and
+        // every other value shares one "other" column.
+        let mut csv = String::from("id,y\n");
+        for i in 0..3000 {
+            let id = if i >= 2700 {
+                format!("shared{}", i % 10)
+            } else {
+                format!("c{i}")
+            };
+            csv.push_str(&format!("{id},{}\n", i % 2));
+        }
+        let t = parse_csv(csv.as_bytes(), "t.csv", "y", None).unwrap();
+        let rows: Vec<usize> = (0..3000).collect();
+        let p = Preprocessor::fit(&t, &rows, false);
+        assert_eq!(p.width(), 11);
+        // A level the training rows never saw encodes as "other", like the
+        // rare ones: row 5's value is unseen when it is left out.
+        let train: Vec<usize> = (0..3000).filter(|&r| r != 5).collect();
+        let p = Preprocessor::fit(&t, &train, false);
+        let x = p.transform(&t, &[5, 6, 2700]);
+        assert_eq!(x.row(0), x.row(1), "unseen and rare share `other`");
+        assert_eq!(x.row(0).sum(), 1.0);
+        assert_ne!(x.row(0), x.row(2));
+        // With a cap of 4 levels, the rest join "other".
+        let mut capped = t.clone();
+        capped.levels.max_levels = 4;
+        assert_eq!(Preprocessor::fit(&capped, &rows, false).width(), 5);
     }
 }

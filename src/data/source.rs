@@ -4,7 +4,7 @@
 
 use super::catalog::Catalog;
 use super::csv::{parse_csv, read_csv, CsvFormat};
-use super::table::Table;
+use super::table::{LevelCap, Table};
 use crate::common::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
@@ -41,6 +41,12 @@ pub struct DatasetSpec {
     /// own table and never counted as an independent dataset.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub segment_of: Option<String>,
+    /// Feature columns to drop: identifiers, leaks, free text.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub exclude: Vec<String>,
+    /// The cap on categorical encodings (`max_levels`, `min_level_rows`).
+    #[serde(default, skip_serializing_if = "LevelCap::is_default")]
+    pub levels: LevelCap,
 }
 
 /// Loads a manifest's dataset entry, from the catalog or from a path
@@ -83,13 +89,25 @@ pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) 
                 )));
             }
             let target = spec.target.clone().unwrap_or_default();
-            let mut table = read_csv(&path, &target, spec.positive.as_deref(), &spec.format)
+            let table = read_csv(&path, &target, spec.positive.as_deref(), &spec.format)
                 .map_err(in_entry)?;
-            table.name = spec.name.clone();
-            return Ok(table);
+            return finish(table, spec);
         }
     };
-    let mut table = parse_csv(&bytes, &file, &target, positive.as_deref()).map_err(in_entry)?;
+    let table = parse_csv(&bytes, &file, &target, positive.as_deref()).map_err(in_entry)?;
+    finish(table, spec)
+}
+
+/// Applies the entry's own settings to a table as read: its name, the
+/// columns it excludes and its encoding cap, with a note for each column
+/// that still looks like an identifier.
+fn finish(mut table: Table, spec: &DatasetSpec) -> Result<Table> {
     table.name = spec.name.clone();
+    table
+        .exclude(&spec.exclude)
+        .map_err(|m| Error::Manifest(format!("{}: dataset `{}`: {m}", spec.origin, spec.name)))?;
+    table.levels = spec.levels;
+    let notes = table.identifier_notes();
+    table.warnings.extend(notes);
     Ok(table)
 }

@@ -39,6 +39,36 @@ pub struct Table {
     pub classes: Vec<String>,
     /// Plain-words notes about dropped columns and the like.
     pub warnings: Vec<String>,
+    /// How many levels of a categorical column the encoding keeps.
+    pub levels: LevelCap,
+}
+
+/// The cap on a categorical column's encoding, fitted on training rows only:
+/// a level seen in fewer than `min_rows` training rows, or beyond the
+/// `max_levels` most frequent, joins one "other" level, as does a level the
+/// training rows never saw. An identifier-like column of 3,000 values thus
+/// becomes at most `max_levels + 1` indicator columns, not 3,000.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct LevelCap {
+    pub max_levels: usize,
+    pub min_rows: usize,
+}
+
+impl Default for LevelCap {
+    fn default() -> Self {
+        LevelCap {
+            max_levels: 50,
+            min_rows: 5,
+        }
+    }
+}
+
+impl LevelCap {
+    /// True for the default cap, so manifests that never set it keep their
+    /// recorded settings.
+    pub fn is_default(&self) -> bool {
+        *self == LevelCap::default()
+    }
 }
 
 impl Table {
@@ -50,6 +80,53 @@ impl Table {
     /// Number of classes.
     pub fn n_classes(&self) -> usize {
         self.classes.len()
+    }
+
+    /// Drops the named columns (identifiers, leaks, free text); a name that
+    /// is not a feature column is an error listing the columns there are.
+    pub fn exclude(&mut self, names: &[String]) -> Result<(), String> {
+        for name in names {
+            if !self.columns.iter().any(|c| &c.name == name) {
+                let shown: Vec<&str> = self
+                    .columns
+                    .iter()
+                    .take(20)
+                    .map(|c| c.name.as_str())
+                    .collect();
+                return Err(format!(
+                    "`exclude` names `{name}`, which is not a feature column (the target cannot be excluded); columns are: {}",
+                    shown.join(", ")
+                ));
+            }
+        }
+        self.columns.retain(|c| !names.contains(&c.name));
+        Ok(())
+    }
+
+    /// Notes on categorical columns that look like identifiers: nearly a
+    /// different value in every row. The encoding caps them, but a column
+    /// like that rarely measures anything a model can use.
+    pub fn identifier_notes(&self) -> Vec<String> {
+        let n = self.rows();
+        self.columns
+            .iter()
+            .filter_map(|c| match &c.data {
+                ColumnData::Categorical { codes, levels } => {
+                    let present = codes.iter().filter(|&&v| v != MISSING_CODE).count();
+                    (present > 20 && levels.len() * 2 > present).then(|| {
+                        format!(
+                            "{}: column `{}` has {} distinct values in {n} rows, like an identifier; it is encoded as at most its {} most frequent levels plus `other`. Drop it with `exclude = [\"{}\"]` unless it truly measures something",
+                            self.source,
+                            c.name,
+                            levels.len(),
+                            self.levels.max_levels,
+                            c.name
+                        )
+                    })
+                }
+                ColumnData::Numeric(_) => None,
+            })
+            .collect()
     }
 
     /// Rows per class, by class index.

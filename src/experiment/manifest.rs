@@ -13,7 +13,7 @@ use crate::common::params::{self, Params};
 use crate::data::csv::CsvFormat;
 use crate::data::folds::class_fits_folds;
 use crate::data::source::{DataSource, DatasetSpec};
-use crate::data::table::Table;
+use crate::data::table::{LevelCap, Table};
 use crate::{calibrate, learner, metrics};
 use serde::{Deserialize, Serialize};
 use std::cell::RefCell;
@@ -135,6 +135,9 @@ struct RawDataset {
     positive: Option<Spanned<toml::Value>>,
     delimiter: Option<Spanned<String>>,
     decimal: Option<Spanned<String>>,
+    exclude: Option<Vec<Spanned<String>>>,
+    max_levels: Option<Spanned<usize>>,
+    min_level_rows: Option<Spanned<usize>>,
 }
 
 #[derive(Deserialize)]
@@ -329,14 +332,60 @@ fn datasets(at: &Locator, raw: Vec<RawDataset>) -> Vec<DatasetSpec> {
         datasets.push(DatasetSpec {
             name: d.name.get_ref().clone(),
             source,
-            target: d.target.map(|t| t.into_inner()),
+            target: d.target.as_ref().map(|t| t.get_ref().clone()),
             positive,
             format,
             origin: at.position(d.name.span().start),
             segment_of: None,
+            exclude: exclusions(at, &d),
+            levels: level_cap(at, &d),
         });
     }
     datasets
+}
+
+/// A dataset's `exclude` list; repeats go to `at`. Whether each name is a
+/// column is checked when the data are read.
+fn exclusions(at: &Locator, d: &RawDataset) -> Vec<String> {
+    let mut out: Vec<String> = Vec::new();
+    for name in d.exclude.iter().flatten() {
+        if out.contains(name.get_ref()) {
+            at.report(
+                name.span().start,
+                &format!("`exclude` lists `{}` twice; list each once", name.get_ref()),
+            );
+        } else {
+            out.push(name.get_ref().clone());
+        }
+    }
+    out
+}
+
+/// A dataset's cap on categorical encodings; problems go to `at`.
+fn level_cap(at: &Locator, d: &RawDataset) -> LevelCap {
+    let mut cap = LevelCap::default();
+    let get = |v: &Option<Spanned<usize>>, key: &str, min: usize, max: usize| -> Option<usize> {
+        let v = v.as_ref()?;
+        if (min..=max).contains(v.get_ref()) {
+            Some(*v.get_ref())
+        } else {
+            at.report(
+                v.span().start,
+                &format!(
+                    "`{key}` = {} is out of range; use an integer from {min} to {max}",
+                    v.get_ref()
+                ),
+            );
+            None
+        }
+    };
+    if let Some(v) = get(&d.max_levels, "max_levels", 1, 100_000) {
+        cap.max_levels = v;
+    }
+    if let Some(v) = get(&d.min_level_rows, "min_level_rows", 1, 1_000_000) {
+        cap.min_rows = v;
+    }
+    cap
 }
 
 /// A dataset's `delimiter` and `decimal`; problems go to `at`.
@@ -630,122 +679,4 @@ impl Locator<'_> {
         let lines: Vec<String> = problems.into_iter().map(|(_, line)| line).collect();
         Err(Error::Manifest(lines.join("\n")))
     }
-}
-
-/// Appends a `[[dataset]]` entry for a CSV to a manifest, keeping the
-/// file's text (comments, layout) as it is, after checking that the data
-/// meet the manifest's fold counts and that the result still parses.
-/// Returns the entry's name.
-pub fn append_dataset(
-    manifest: &Path,
-    file: &Path,
-    name: Option<&str>,
-    target: &str,
-    positive: Option<&str>,
-    format: &CsvFormat,
-    table: &Table,
-) -> Result<String> {
-    let old = std::fs::read_to_string(manifest).map_err(|e| {
-        Error::Manifest(format!(
-            "{}: cannot read the manifest: {e}; check the path",
-            manifest.display()
-        ))
-    })?;
-    let name = match name {
-        Some(n) => n.to_string(),
-        None => {
-            let stem = file
-                .file_name()
-                .map(|s| s.to_string_lossy().to_string())
-                .unwrap_or_default();
-            let stem = stem
-                .trim_end_matches(".gz")
-                .trim_end_matches(".csv")
-                .trim_end_matches(".tsv");
-            let clean: String = stem
-                .chars()
-                .map(|c| {
-                    if c.is_ascii_alphanumeric() || c == '_' || c == '-' {
-                        c
-                    } else {
-                        '_'
-                    }
-                })
-                .take(64)
-                .collect();
-            if clean.is_empty() {
-                "dataset".to_string()
-            } else {
-                clean
-            }
-        }
-    };
-    // Names already used, from a light reading: the manifest may not
-    // list any dataset yet, which a full check would refuse.
-    let used: Vec<String> = toml::from_str::<toml::Value>(&old)
-        .ok()
-        .and_then(|v| v.get("dataset").and_then(|d| d.as_array()).cloned())
-        .unwrap_or_default()
-        .iter()
-        .filter_map(|d| d.get("name").and_then(|n| n.as_str()).map(str::to_string))
-        .collect();
-    if used.contains(&name) {
-        return Err(Error::Manifest(format!(
-            "{}: a dataset named `{name}` is already listed; choose another name with --name",
-            manifest.display()
-        )));
-    }
-    let source = ManifestSource {
-        path: manifest.to_path_buf(),
-        text: old.clone(),
-        sha256: String::new(),
-    };
-
-    // The path as the manifest will resolve it: relative to its folder when
-    // the file lies inside it, else absolute.
-    let abs = |p: &Path| std::fs::canonicalize(p).map_err(|e| Error::io(p, "find", &e));
-    let data = abs(file)?;
-    let dir = match source.dir() {
-        d if d.as_os_str().is_empty() => abs(Path::new("."))?,
-        d => abs(d)?,
-    };
-    let shown = data
-        .strip_prefix(&dir)
-        .map_or(data.clone(), Path::to_path_buf);
-    let q = |s: &str| toml::Value::String(s.to_string()).to_string();
-    let mut block = format!(
-        "\n[[dataset]]\nname = {}\npath = {}\ntarget = {}\n",
-        q(&name),
-        q(&shown.to_string_lossy()),
-        q(target)
-    );
-    if let Some(p) = positive {
-        block.push_str(&format!("positive = {}\n", q(p)));
-    }
-    if format.delimiter != b',' {
-        let d = if format.delimiter == b'\t' {
-            "tab".to_string()
-        } else {
-            char::from(format.delimiter).to_string()
-        };
-        block.push_str(&format!("delimiter = {}\n", q(&d)));
-    }
-    if format.decimal_comma {
-        block.push_str("decimal = \",\"\n");
-    }
-    let mut text = old;
-    if !text.ends_with('\n') && !text.is_empty() {
-        text.push('\n');
-    }
-    text.push_str(&block);
-    let exp = parse(ManifestSource {
-        path: manifest.to_path_buf(),
-        sha256: hex_sha256(text.as_bytes()),
-        text: text.clone(),
-    })?;
-    let mut checked = table.clone();
-    checked.name = name.clone();
-    check_class_counts(&checked, &exp.evaluation)?;
-    crate::common::files::write_atomic(manifest, text.as_bytes())?;
-    Ok(name)
 }

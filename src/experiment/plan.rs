@@ -86,6 +86,9 @@ struct FingerprintInput<'a> {
     /// none is, for the same reason as the family's).
     #[serde(skip_serializing_if = "Vec::is_empty")]
     method_revisions: Vec<(&'a str, u32)>,
+    /// The encoding's revision, left out at zero like the others.
+    #[serde(skip_serializing_if = "is_zero")]
+    preprocessing_revision: u32,
     calibration: &'a crate::calibrate::Settings,
     metrics: &'a [String],
 }
@@ -129,6 +132,7 @@ fn fingerprint(exp: &Experiment, d: usize, f: usize, table: &Table) -> String {
                 (revision > 0).then_some((m.as_str(), revision))
             })
             .collect(),
+        preprocessing_revision: crate::data::preprocess::REVISION,
         calibration: &exp.calibration,
         metrics: &exp.metrics,
     };

@@ -104,6 +104,8 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 format: Default::default(),
                 origin: String::new(),
                 segment_of: (*d != name).then(|| name.clone()),
+                exclude: Vec::new(),
+                levels: Default::default(),
             })
             .collect(),
         families: vec![FamilySpec {
