@@ -364,25 +364,10 @@ fn exclusions(at: &Locator, d: &RawDataset) -> Vec<String> {
 /// A dataset's cap on categorical encodings; problems go to `at`.
 fn level_cap(at: &Locator, d: &RawDataset) -> LevelCap {
     let mut cap = LevelCap::default();
-    let get = |v: &Option<Spanned<usize>>, key: &str, min: usize, max: usize| -> Option<usize> {
-        let v = v.as_ref()?;
-        if (min..=max).contains(v.get_ref()) {
-            Some(*v.get_ref())
-        } else {
-            at.report(
-                v.span().start,
-                &format!(
-                    "`{key}` = {} is out of range; use an integer from {min} to {max}",
-                    v.get_ref()
-                ),
-            );
-            None
-        }
-    };
-    if let Some(v) = get(&d.max_levels, "max_levels", 1, 100_000) {
+    if let Some(v) = at.in_range(d.max_levels.as_ref(), "max_levels", 1, 100_000) {
         cap.max_levels = v;
     }
-    if let Some(v) = get(&d.min_level_rows, "min_level_rows", 1, 1_000_000) {
+    if let Some(v) = at.in_range(d.min_level_rows.as_ref(), "min_level_rows", 1, 1_000_000) {
         cap.min_rows = v;
     }
     cap
@@ -502,20 +487,8 @@ fn families(at: &Locator, raw: Vec<RawFamily>) -> Vec<FamilySpec> {
 fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Evaluation {
     let d = default_evaluation(seed);
     let Some(raw) = raw else { return d };
-    let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| match v
-    {
-        None => default,
-        Some(s) if (min..=max).contains(s.get_ref()) => *s.get_ref(),
-        Some(s) => {
-            at.report(
-                s.span().start,
-                &format!(
-                    "`{key}` = {} is out of range; use an integer from {min} to {max}",
-                    s.get_ref()
-                ),
-            );
-            default
-        }
+    let get = |v: Option<Spanned<usize>>, default: usize, min: usize, max: usize, key: &str| {
+        at.in_range(v.as_ref(), key, min, max).unwrap_or(default)
     };
     Evaluation {
         outer_folds: get(raw.outer_folds, d.outer_folds, 2, 100, "outer_folds"),
@@ -532,18 +505,9 @@ fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Evaluation
 
 fn calibration_settings(at: &Locator, raw: Option<RawCalibration>) -> crate::calibrate::Settings {
     let mut s = crate::calibrate::Settings::default();
-    if let Some(bins) = raw.and_then(|r| r.histogram_bins) {
-        if (2..=1000).contains(bins.get_ref()) {
-            s.histogram_bins = *bins.get_ref();
-        } else {
-            at.report(
-                bins.span().start,
-                &format!(
-                    "`histogram_bins` = {} is out of range; use an integer from 2 to 1000",
-                    bins.get_ref()
-                ),
-            );
-        }
+    let bins = raw.and_then(|r| r.histogram_bins);
+    if let Some(v) = at.in_range(bins.as_ref(), "histogram_bins", 2, 1000) {
+        s.histogram_bins = v;
     }
     s
 }
@@ -659,6 +623,29 @@ impl Locator<'_> {
     fn report(&self, offset: usize, msg: &str) {
         let line = format!("{}: {msg}", self.position(offset));
         self.problems.borrow_mut().push((Some(offset), line));
+    }
+
+    /// An integer setting within `[min, max]`, or `None` (with the problem
+    /// recorded when the setting is given but out of range).
+    fn in_range(
+        &self,
+        v: Option<&Spanned<usize>>,
+        key: &str,
+        min: usize,
+        max: usize,
+    ) -> Option<usize> {
+        let v = v?;
+        if (min..=max).contains(v.get_ref()) {
+            return Some(*v.get_ref());
+        }
+        self.report(
+            v.span().start,
+            &format!(
+                "`{key}` = {} is out of range; use an integer from {min} to {max}",
+                v.get_ref()
+            ),
+        );
+        None
     }
 
     /// Records a problem of the whole file.

@@ -241,6 +241,69 @@ fn backdrop<DB: DrawingBackend>(chart: &mut Chart<'_, DB>, dashes: Dashes) -> Dr
     )
 }
 
+/// Sizes of a reliability chart's parts, in pixels.
+struct ChartSizes {
+    caption: u32,
+    margin: u32,
+    x_labels: u32,
+    y_labels: u32,
+    label_font: u32,
+}
+
+const FULL: ChartSizes = ChartSizes {
+    caption: 18,
+    margin: 10,
+    x_labels: 38,
+    y_labels: 52,
+    label_font: 12,
+};
+
+const SMALL: ChartSizes = ChartSizes {
+    caption: 13,
+    margin: 6,
+    x_labels: 18,
+    y_labels: 28,
+    label_font: 9,
+};
+
+/// A reliability chart's frame: the unit square with its tinted halves,
+/// the diagonal and a light grid; with `forecast`, the axis titles of the
+/// full figure, without, three labels per axis for a grid panel.
+fn reliability_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    title: &str,
+    sizes: &ChartSizes,
+    forecast: Option<&str>,
+    dashes: Dashes,
+) -> std::result::Result<Chart<'a, DB>, DrawingAreaErrorKind<DB::ErrorType>> {
+    let mut builder = ChartBuilder::on(area);
+    builder
+        .caption(title, (FONT, sizes.caption))
+        .margin(sizes.margin)
+        .x_label_area_size(sizes.x_labels)
+        .y_label_area_size(sizes.y_labels);
+    if forecast.is_some() {
+        builder.margin_bottom(0);
+    }
+    let mut chart = builder.build_cartesian_2d(0f64..1f64, 0f64..1f64)?;
+    backdrop(&mut chart, dashes)?;
+    let mut mesh = chart.configure_mesh();
+    mesh.light_line_style(TRANSPARENT)
+        .bold_line_style(WHITE.mix(0.9))
+        .label_style((FONT, sizes.label_font));
+    match forecast {
+        Some(f) => {
+            mesh.x_desc(format!("mean forecast ({f})"))
+                .y_desc("observed frequency");
+        }
+        None => {
+            mesh.x_labels(3).y_labels(3);
+        }
+    }
+    mesh.draw()?;
+    Ok(chart)
+}
+
 /// A marker's outline around its centre, in pixels (y down).
 fn marker_outline(shape: Marker, r: i32) -> Vec<(i32, i32)> {
     let h = r * 7 / 10;
@@ -349,22 +412,8 @@ fn draw_panel<DB: DrawingBackend>(
     let (w, h) = area.dim_in_pixel();
     let (left, right) = area.split_horizontally(w - 270);
     let (top, strip) = left.split_vertically(h - 46);
-    let mut chart = ChartBuilder::on(&top)
-        .caption(format!("{} / {}", p.dataset, p.family), (FONT, 18))
-        .margin(10)
-        .margin_bottom(0)
-        .x_label_area_size(38)
-        .y_label_area_size(52)
-        .build_cartesian_2d(0f64..1f64, 0f64..1f64)?;
-    backdrop(&mut chart, dashes)?;
-    chart
-        .configure_mesh()
-        .light_line_style(TRANSPARENT)
-        .bold_line_style(WHITE.mix(0.9))
-        .label_style((FONT, 12))
-        .x_desc(format!("mean forecast ({})", p.forecast))
-        .y_desc("observed frequency")
-        .draw()?;
+    let title = format!("{} / {}", p.dataset, p.family);
+    let mut chart = reliability_chart(&top, &title, &FULL, Some(p.forecast), dashes)?;
     let (high, low) = if p.forecast.starts_with("top-label") {
         ("over-confident", "under-confident")
     } else {
@@ -546,21 +595,7 @@ fn draw_small_panel<DB: DrawingBackend>(
     title: &str,
     dashes: Dashes,
 ) -> Drawn<DB> {
-    let mut chart = ChartBuilder::on(area)
-        .caption(title, (FONT, 13))
-        .margin(6)
-        .x_label_area_size(18)
-        .y_label_area_size(28)
-        .build_cartesian_2d(0f64..1f64, 0f64..1f64)?;
-    backdrop(&mut chart, dashes)?;
-    chart
-        .configure_mesh()
-        .light_line_style(TRANSPARENT)
-        .bold_line_style(WHITE.mix(0.9))
-        .label_style((FONT, 9))
-        .x_labels(3)
-        .y_labels(3)
-        .draw()?;
+    let mut chart = reliability_chart(area, title, &SMALL, None, dashes)?;
     for c in &p.curves {
         let s = style::of(&c.method);
         let pts: Vec<(f64, f64)> = c
