@@ -222,19 +222,18 @@ fn churn(dir: &Path) {
     std::fs::write(dir.join("churn.csv"), csv).unwrap();
 }
 
+/// `candor data <sub>` on the churn file, plus `extra` arguments.
+fn on_churn<'a>(sub: &'a str, extra: &[&'a str]) -> Vec<&'a str> {
+    let mut args = vec!["data", sub, "churn.csv", "-t", "churned", "-p", "yes"];
+    args.extend_from_slice(extra);
+    args
+}
+
 #[test]
 fn a_continuous_column_is_not_an_identifier_but_a_text_one_is() {
     let tmp = tempfile::tempdir().unwrap();
     churn(tmp.path());
-    let out = stdout(candor(tmp.path()).args([
-        "data",
-        "inspect",
-        "churn.csv",
-        "-t",
-        "churned",
-        "-p",
-        "yes",
-    ]));
+    let out = stdout(candor(tmp.path()).args(on_churn("inspect", &[])));
     assert!(
         out.contains("column `customer_id` has a different value in every row"),
         "{out}"
@@ -244,17 +243,7 @@ fn a_continuous_column_is_not_an_identifier_but_a_text_one_is() {
         "{out}"
     );
     // --exclude drops it before inspecting.
-    let out = stdout(candor(tmp.path()).args([
-        "data",
-        "inspect",
-        "churn.csv",
-        "-t",
-        "churned",
-        "-p",
-        "yes",
-        "--exclude",
-        "customer_id",
-    ]));
+    let out = stdout(candor(tmp.path()).args(on_churn("inspect", &["--exclude", "customer_id"])));
     assert!(!out.contains("customer_id"), "{out}");
 }
 
@@ -264,17 +253,7 @@ fn add_creates_a_manifest_beside_or_above_the_data_and_excludes_columns() {
     churn(tmp.path());
     // No manifest yet, in a folder below the data: it is created, and the
     // path steps up to the data.
-    let out = stdout(candor(tmp.path()).args([
-        "data",
-        "add",
-        "churn.csv",
-        "-t",
-        "churned",
-        "-p",
-        "yes",
-        "--to",
-        "experiments/my.toml",
-    ]));
+    let out = stdout(candor(tmp.path()).args(on_churn("add", &["--to", "experiments/my.toml"])));
     assert!(out.contains("added dataset `churn`"), "{out}");
     let text = std::fs::read_to_string(tmp.path().join("experiments/my.toml")).unwrap();
     assert!(text.contains("name = \"my\""), "{text}");
@@ -292,21 +271,17 @@ fn add_creates_a_manifest_beside_or_above_the_data_and_excludes_columns() {
     );
     assert!(err.contains("exclude = [\"customer_id\"]"), "{err}");
     // A second entry that leaves the identifier out.
-    stdout(candor(tmp.path()).args([
-        "data",
+    stdout(candor(tmp.path()).args(on_churn(
         "add",
-        "churn.csv",
-        "-t",
-        "churned",
-        "-p",
-        "yes",
-        "--to",
-        "experiments/my.toml",
-        "--name",
-        "churn_clean",
-        "--exclude",
-        "customer_id",
-    ]));
+        &[
+            "--to",
+            "experiments/my.toml",
+            "--name",
+            "churn_clean",
+            "--exclude",
+            "customer_id",
+        ],
+    )));
     let text = std::fs::read_to_string(tmp.path().join("experiments/my.toml")).unwrap();
     assert!(text.contains("exclude = [\"customer_id\"]"), "{text}");
     // An excluded name that is not a column is an error naming it.
