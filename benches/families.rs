@@ -31,6 +31,7 @@ fn main() {
                 origin: String::new(),
                 segment_of: None,
                 exclude: Vec::new(),
+                group: None,
                 levels: Default::default(),
             };
             candor::data::source::load(&spec, Some(&catalog), &dir).expect("bundled dataset")

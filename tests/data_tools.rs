@@ -301,3 +301,38 @@ fn add_creates_a_manifest_beside_or_above_the_data_and_excludes_columns() {
         "{err}"
     );
 }
+
+#[test]
+fn a_group_column_is_checked_and_leaves_the_features() {
+    let tmp = tempfile::tempdir().unwrap();
+    churn(tmp.path());
+    let manifest = |group: &str| {
+        format!("name = \"g\"\n[[dataset]]\nname = \"c\"\npath = \"churn.csv\"\ntarget = \"churned\"\npositive = \"yes\"\ngroup = \"{group}\"\n[[family]]\nname = \"logistic\"\n")
+    };
+    std::fs::write(tmp.path().join("g.toml"), manifest("customer_id")).unwrap();
+    let out = stdout(candor(tmp.path()).args(["check", "g.toml"]));
+    // The group column is not a feature: spend and plan remain.
+    assert!(out.contains("c: 400 rows, 2 feature columns"), "{out}");
+    std::fs::write(tmp.path().join("g.toml"), manifest("customer")).unwrap();
+    let o = candor(tmp.path())
+        .args(["check", "g.toml"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(!o.status.success());
+    assert!(
+        err.contains("`group` names `customer`, which is not a feature column"),
+        "{err}"
+    );
+    // Three plans are three groups, fewer than five outer folds.
+    std::fs::write(tmp.path().join("g.toml"), manifest("plan")).unwrap();
+    let o = candor(tmp.path())
+        .args(["check", "g.toml"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("has 3 groups, fewer than the 5 outer folds"),
+        "{err}"
+    );
+}

@@ -185,3 +185,45 @@ fn the_test_fold_is_never_seen_in_training_or_calibration() {
         assert_eq!(clean.calibrations, dirty.calibrations);
     }
 }
+
+#[test]
+fn groups_stay_whole_in_the_outer_and_inner_folds() {
+    // Twenty customers with three rows each: no customer may be on both
+    // sides of an outer split or of an inner cross-fitting split.
+    let mut csv = String::from("id,x,customer,y\n");
+    for i in 0..60 {
+        csv.push_str(&format!(
+            "{},{},c{},{}\n",
+            1000 + i,
+            (i * 37) % 100,
+            i / 3,
+            i % 4 == 0
+        ));
+    }
+    let mut t = parse_csv(csv.as_bytes(), "spy.csv", "y", None).unwrap();
+    t.take_groups("customer").unwrap();
+    let groups = t.groups.clone().unwrap();
+    let group_of = |id: i64| groups[(id - 1000) as usize];
+    let assignment = folds::assign(&t.labels, Some(&groups), 2, 3, 1);
+    let (train, test) = folds::split(&assignment, 0);
+    let outer = |rows: &[usize]| -> BTreeSet<u32> { rows.iter().map(|&r| groups[r]).collect() };
+    assert!(outer(&train).is_disjoint(&outer(&test)));
+    let train_ids: BTreeSet<i64> = train.iter().map(|&r| 1000 + r as i64).collect();
+    let seen = run(&t, &train, &test, false);
+    // The four inner validation parts: each holds whole customers, none of
+    // whom is in the part's training rows.
+    let inner: Vec<&BTreeSet<i64>> = seen
+        .predicts
+        .iter()
+        .filter(|p| p.is_subset(&train_ids))
+        .collect();
+    assert_eq!(inner.len(), 4);
+    for part in inner {
+        let inside: BTreeSet<u32> = part.iter().map(|&id| group_of(id)).collect();
+        let outside: BTreeSet<u32> = train_ids.difference(part).map(|&id| group_of(id)).collect();
+        assert!(
+            inside.is_disjoint(&outside),
+            "a customer on both sides: {inside:?}"
+        );
+    }
+}

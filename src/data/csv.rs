@@ -168,6 +168,7 @@ fn parse_stream(
         classes,
         warnings,
         levels: Default::default(),
+        groups: None,
     })
 }
 

@@ -1,9 +1,16 @@
-//! Stratified K-fold assignment.
+//! Stratified K-fold assignment, with or without groups.
 //!
-//! Each class's rows are shuffled with a seeded generator and dealt to the
-//! folds in turn, continuing the deal from one class to the next, so every
-//! fold gets within one row of its share of each class and fold sizes differ
-//! by at most one.
+//! Without groups, each class's rows are shuffled with a seeded generator
+//! and dealt to the folds in turn, continuing the deal from one class to the
+//! next, so every fold gets within one row of its share of each class and
+//! fold sizes differ by at most one.
+//!
+//! With groups (rows of one customer, patient or device), every group goes
+//! whole to one fold, so no entity is on both sides of a split, and the
+//! folds are stratified as far as whole groups allow: the groups, shuffled
+//! by the seed and then taken largest first, each go to the fold whose
+//! class counts are furthest below their shares for the classes the group
+//! holds (ties to the smaller fold, then the lower index).
 
 use crate::common::rng::SplitMix64;
 
@@ -22,6 +29,93 @@ pub fn stratified(labels: &[usize], n_classes: usize, k: usize, seed: u64) -> Ve
             fold[r] = next % k;
             next += 1;
         }
+    }
+    fold
+}
+
+/// The fold (in `0..k`) of every row; with `groups` (a group id per row),
+/// whole groups, as [`grouped`] deals them.
+pub fn assign(
+    labels: &[usize],
+    groups: Option<&[u32]>,
+    n_classes: usize,
+    k: usize,
+    seed: u64,
+) -> Vec<usize> {
+    match groups {
+        Some(g) => grouped(labels, g, n_classes, k, seed),
+        None => stratified(labels, n_classes, k, seed),
+    }
+}
+
+/// The fold of every row, keeping each group whole and stratifying by
+/// `labels` as far as whole groups allow.
+pub fn grouped(
+    labels: &[usize],
+    groups: &[u32],
+    n_classes: usize,
+    k: usize,
+    seed: u64,
+) -> Vec<usize> {
+    // Each group's rows and class counts, in order of first appearance.
+    let mut ids: Vec<u32> = Vec::new();
+    let mut index = std::collections::HashMap::new();
+    let mut members: Vec<Vec<usize>> = Vec::new();
+    for (row, &g) in groups.iter().enumerate() {
+        let at = *index.entry(g).or_insert_with(|| {
+            ids.push(g);
+            members.push(Vec::new());
+            members.len() - 1
+        });
+        members[at].push(row);
+    }
+    let counts: Vec<Vec<usize>> = members
+        .iter()
+        .map(|rows| {
+            let mut c = vec![0usize; n_classes];
+            for &r in rows {
+                c[labels[r]] += 1;
+            }
+            c
+        })
+        .collect();
+    let mut order: Vec<usize> = (0..members.len()).collect();
+    SplitMix64::new(seed).shuffle(&mut order);
+    order.sort_by_key(|&g| std::cmp::Reverse(members[g].len()));
+    let mut share = vec![0.0f64; n_classes];
+    for &y in labels {
+        share[y] += 1.0;
+    }
+    share.iter_mut().for_each(|s| *s /= k as f64);
+    let mut held = vec![vec![0usize; n_classes]; k];
+    let mut size = vec![0usize; k];
+    let mut fold = vec![0usize; labels.len()];
+    for g in order {
+        // How far below its shares each fold is, weighted by what the
+        // group would add; the most negative need wins.
+        let need = |f: usize| -> f64 {
+            (0..n_classes)
+                .filter(|&c| counts[g][c] > 0 && share[c] > 0.0)
+                .map(|c| {
+                    counts[g][c] as f64 * (held[f][c] as f64 - share[c]) / (share[c] * share[c])
+                })
+                .sum()
+        };
+        let best = (0..k)
+            .min_by(|&a, &b| {
+                need(a)
+                    .total_cmp(&need(b))
+                    .then(size[a].cmp(&size[b]))
+                    .then(a.cmp(&b))
+            })
+            .unwrap_or(0);
+        for &r in &members[g] {
+            fold[r] = best;
+        }
+        for c in 0..n_classes {
+            held[best][c] += counts[g][c];
+        }
+        size[best] += members[g].len();
     }
     fold
 }
@@ -84,6 +178,48 @@ mod tests {
         let labels = vec![0usize; 40];
         assert_eq!(stratified(&labels, 1, 5, 1), stratified(&labels, 1, 5, 1));
         assert_ne!(stratified(&labels, 1, 5, 1), stratified(&labels, 1, 5, 2));
+    }
+
+    #[test]
+    fn groups_stay_whole_and_folds_stay_near_their_shares() {
+        // 300 customers with 1 to 6 rows each; a customer's rows share a
+        // label 80% of the time.
+        let mut rng = SplitMix64::new(4);
+        let (mut labels, mut groups) = (Vec::new(), Vec::new());
+        for g in 0..300u32 {
+            let rows = 1 + (rng.unit() * 6.0) as usize;
+            let usual = usize::from(rng.unit() < 0.3);
+            for _ in 0..rows {
+                let y = if rng.unit() < 0.8 { usual } else { 1 - usual };
+                labels.push(y);
+                groups.push(g);
+            }
+        }
+        let a = grouped(&labels, &groups, 2, 5, 9);
+        for g in 0..300u32 {
+            let folds: std::collections::BTreeSet<usize> = (0..labels.len())
+                .filter(|&i| groups[i] == g)
+                .map(|i| a[i])
+                .collect();
+            assert_eq!(folds.len(), 1, "group {g} split over {folds:?}");
+        }
+        let positives = labels.iter().filter(|&&y| y == 1).count() as f64;
+        for f in 0..5 {
+            let n = (0..labels.len()).filter(|&i| a[i] == f).count() as f64;
+            let p = (0..labels.len())
+                .filter(|&i| a[i] == f && labels[i] == 1)
+                .count() as f64;
+            assert!(
+                (n / labels.len() as f64 - 0.2).abs() < 0.02,
+                "fold {f}: {n} rows"
+            );
+            assert!(
+                (p / positives - 0.2).abs() < 0.02,
+                "fold {f}: {p} positives"
+            );
+        }
+        assert_eq!(a, grouped(&labels, &groups, 2, 5, 9));
+        assert_ne!(a, grouped(&labels, &groups, 2, 5, 10));
     }
 
     #[test]

@@ -44,6 +44,10 @@ pub struct DatasetSpec {
     /// Feature columns to drop: identifiers, leaks, free text.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub exclude: Vec<String>,
+    /// A column of group ids (a customer, patient or device): folds keep
+    /// each group whole. The column is not a feature.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub group: Option<String>,
     /// The cap on categorical encodings (`max_levels`, `min_level_rows`).
     #[serde(default, skip_serializing_if = "LevelCap::is_default")]
     pub levels: LevelCap,
@@ -106,6 +110,11 @@ fn finish(mut table: Table, spec: &DatasetSpec) -> Result<Table> {
     table
         .exclude(&spec.exclude)
         .map_err(|m| Error::Manifest(format!("{}: dataset `{}`: {m}", spec.origin, spec.name)))?;
+    if let Some(g) = &spec.group {
+        table.take_groups(g).map_err(|m| {
+            Error::Manifest(format!("{}: dataset `{}`: {m}", spec.origin, spec.name))
+        })?;
+    }
     table.levels = spec.levels;
     let notes = table.identifier_notes();
     table.warnings.extend(notes);

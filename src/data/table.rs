@@ -41,6 +41,9 @@ pub struct Table {
     pub warnings: Vec<String>,
     /// How many levels of a categorical column the encoding keeps.
     pub levels: LevelCap,
+    /// A group id per row (rows of one customer, patient or device), when
+    /// the dataset names a `group` column: folds keep each group whole.
+    pub groups: Option<Vec<u32>>,
 }
 
 /// The cap on a categorical column's encoding, fitted on training rows only:
@@ -100,6 +103,50 @@ impl Table {
             }
         }
         self.columns.retain(|c| !names.contains(&c.name));
+        Ok(())
+    }
+
+    /// Takes the named column out of the features as the rows' group ids.
+    /// A missing group value is an error naming the first such row.
+    pub fn take_groups(&mut self, name: &str) -> Result<(), String> {
+        let Some(at) = self.columns.iter().position(|c| c.name == name) else {
+            return Err(format!(
+                "`group` names `{name}`, which is not a feature column; columns are: {}",
+                self.columns
+                    .iter()
+                    .take(20)
+                    .map(|c| c.name.as_str())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+        };
+        let column = self.columns.remove(at);
+        let ids: Vec<Option<u32>> = match column.data {
+            ColumnData::Categorical { codes, .. } => codes
+                .into_iter()
+                .map(|c| (c != MISSING_CODE).then_some(c))
+                .collect(),
+            ColumnData::Numeric(v) => {
+                let mut distinct: Vec<f64> = v.iter().copied().filter(|x| !x.is_nan()).collect();
+                distinct.sort_by(f64::total_cmp);
+                distinct.dedup();
+                v.iter()
+                    .map(|x| {
+                        distinct
+                            .binary_search_by(|d| d.total_cmp(x))
+                            .ok()
+                            .map(|i| i as u32)
+                    })
+                    .collect()
+            }
+        };
+        if let Some(row) = ids.iter().position(Option::is_none) {
+            return Err(format!(
+                "the group column `{name}` is empty on data row {}; give every row its group",
+                row + 1
+            ));
+        }
+        self.groups = Some(ids.into_iter().flatten().collect());
         Ok(())
     }
 

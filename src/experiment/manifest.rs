@@ -136,6 +136,7 @@ struct RawDataset {
     delimiter: Option<Spanned<String>>,
     decimal: Option<Spanned<String>>,
     exclude: Option<Vec<Spanned<String>>>,
+    group: Option<Spanned<String>>,
     max_levels: Option<Spanned<usize>>,
     min_level_rows: Option<Spanned<usize>>,
 }
@@ -167,6 +168,19 @@ pub fn default_evaluation(seed: u64) -> Evaluation {
 pub fn check_class_counts(table: &Table, eval: &Evaluation) -> Result<()> {
     let k = eval.outer_folds;
     let m = eval.inner_folds;
+    if let Some(groups) = &table.groups {
+        let mut distinct = groups.clone();
+        distinct.sort_unstable();
+        distinct.dedup();
+        if distinct.len() < k {
+            return Err(Error::Data(format!(
+                "{}: dataset `{}` has {} groups, fewer than the {k} outer folds, and each group stays whole in one fold; lower `outer_folds` in [evaluation]",
+                table.source,
+                table.name,
+                distinct.len()
+            )));
+        }
+    }
     let enough = |c: usize| class_fits_folds(c, k, m);
     for (class, &count) in table.classes.iter().zip(&table.class_counts()) {
         if !enough(count) {
@@ -338,6 +352,7 @@ fn datasets(at: &Locator, raw: Vec<RawDataset>) -> Vec<DatasetSpec> {
             origin: at.position(d.name.span().start),
             segment_of: None,
             exclude: exclusions(at, &d),
+            group: d.group.as_ref().map(|g| g.get_ref().clone()),
             levels: level_cap(at, &d),
         });
     }

@@ -55,7 +55,13 @@ pub fn outer_folds(exp: &Experiment, tables: &[Table]) -> Vec<Vec<Vec<usize>>> {
             (0..eval.repeats)
                 .map(|r| {
                     let seed = derive_seed(exp.seed, &["outer", &t.name, &r.to_string()]);
-                    folds::stratified(&t.labels, t.n_classes(), eval.outer_folds, seed)
+                    folds::assign(
+                        &t.labels,
+                        t.groups.as_deref(),
+                        t.n_classes(),
+                        eval.outer_folds,
+                        seed,
+                    )
                 })
                 .collect()
         })

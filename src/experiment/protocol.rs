@@ -89,7 +89,19 @@ pub fn run_cell(
     // parallel (which also keeps both cores busy on the last cells of a
     // run); results are placed by index, and the first error in fold order
     // is reported, so the outcome does not depend on scheduling.
-    let inner = folds::stratified(&y_train, k, plan.inner_folds, plan.inner_seed);
+    // Groups stay whole in the inner folds too, or an entity's rows would
+    // score each other's out-of-fold forecasts.
+    let groups: Option<Vec<u32>> = table
+        .groups
+        .as_ref()
+        .map(|g| plan.train.iter().map(|&r| g[r]).collect());
+    let inner = folds::assign(
+        &y_train,
+        groups.as_deref(),
+        k,
+        plan.inner_folds,
+        plan.inner_seed,
+    );
     let splits: Vec<(Vec<usize>, Vec<usize>)> = (0..plan.inner_folds)
         .map(|m| folds::split(&inner, m))
         .collect();

@@ -105,6 +105,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 origin: String::new(),
                 segment_of: (*d != name).then(|| name.clone()),
                 exclude: Vec::new(),
+                group: None,
                 levels: Default::default(),
             })
             .collect(),
