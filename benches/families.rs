@@ -32,6 +32,7 @@ fn main() {
                 segment_of: None,
                 exclude: Vec::new(),
                 group: None,
+                time: None,
                 levels: Default::default(),
             };
             candor::data::source::load(&spec, Some(&catalog), &dir).expect("bundled dataset")

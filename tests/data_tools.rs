@@ -336,3 +336,50 @@ fn a_group_column_is_checked_and_leaves_the_features() {
         "{err}"
     );
 }
+
+#[test]
+fn a_time_column_runs_an_expanding_window_and_the_report_says_so() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut csv = String::from("signup,spend,churned\n");
+    for i in 0..300 {
+        // ISO dates sort as text; the file is not in time order.
+        let d = (i * 97) % 300;
+        let date = format!("2026-{:02}-{:02}", 1 + d / 28, 1 + d % 28);
+        let churned = if (i * 7) % 10 < 3 { "yes" } else { "no" };
+        csv.push_str(&format!("{date},{},{churned}\n", (i * 13) % 50));
+    }
+    std::fs::write(tmp.path().join("t.csv"), csv).unwrap();
+    let manifest = |extra: &str| {
+        format!("name = \"t\"\n{extra}[[dataset]]\nname = \"t\"\npath = \"t.csv\"\ntarget = \"churned\"\npositive = \"yes\"\ntime = \"signup\"\n[[family]]\nname = \"logistic\"\n")
+    };
+    std::fs::write(tmp.path().join("t.toml"), manifest("")).unwrap();
+    stdout(candor(tmp.path()).args(["run", "t.toml", "-q"]));
+    let notes = std::fs::read_to_string(tmp.path().join("results/t/report/metrics.md")).unwrap();
+    assert!(notes.contains("`t` is time-ordered by `signup`"), "{notes}");
+    let run: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(tmp.path().join("results/t/run.json")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(run["settings"]["datasets"][0]["time"], "signup");
+    // One split only: repeats are refused, and so is grouping as well.
+    std::fs::write(
+        tmp.path().join("t.toml"),
+        manifest("[evaluation]\nrepeats = 2\n"),
+    )
+    .unwrap();
+    let o = candor(tmp.path())
+        .args(["check", "t.toml"])
+        .output()
+        .unwrap();
+    assert!(String::from_utf8_lossy(&o.stderr).contains("set `repeats = 1`"));
+    std::fs::write(
+        tmp.path().join("t.toml"),
+        manifest("").replace("time = ", "group = \"spend\"\ntime = "),
+    )
+    .unwrap();
+    let o = candor(tmp.path())
+        .args(["check", "t.toml"])
+        .output()
+        .unwrap();
+    assert!(String::from_utf8_lossy(&o.stderr).contains("names both `group` and `time`"));
+}

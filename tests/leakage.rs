@@ -227,3 +227,53 @@ fn groups_stay_whole_in_the_outer_and_inner_folds() {
         );
     }
 }
+
+#[test]
+fn time_ordered_folds_never_train_or_calibrate_on_the_future() {
+    // Sixty days, one row each, in shuffled file order.
+    let mut csv = String::from("id,x,day,y\n");
+    for i in 0..60 {
+        let day = (i * 37) % 60;
+        csv.push_str(&format!(
+            "{},{},{day},{}\n",
+            1000 + i,
+            (i * 13) % 100,
+            i % 3 == 0
+        ));
+    }
+    let mut t = parse_csv(csv.as_bytes(), "spy.csv", "y", None).unwrap();
+    t.take_order("day").unwrap();
+    let day = |id: i64| t.order.as_ref().unwrap()[(id - 1000) as usize];
+    let blocks = folds::time_blocks(t.order.as_ref().unwrap(), 3);
+    for f in 0..3 {
+        let (train, test) = folds::split_for(&blocks, f, true);
+        let ids =
+            |rows: &[usize]| -> BTreeSet<i64> { rows.iter().map(|&r| 1000 + r as i64).collect() };
+        let (train_ids, test_ids) = (ids(&train), ids(&test));
+        let last_train = train_ids.iter().map(|&i| day(i)).fold(f64::MIN, f64::max);
+        let first_test = test_ids.iter().map(|&i| day(i)).fold(f64::MAX, f64::min);
+        assert!(last_train < first_test, "fold {f} trains on the future");
+        let seen = run(&t, &train, &test, false);
+        // Each inner validation part was scored by a fit on exactly the
+        // training rows before it.
+        for part in seen.predicts.iter().filter(|p| p.is_subset(&train_ids)) {
+            let first = part.iter().map(|&i| day(i)).fold(f64::MAX, f64::min);
+            let past: BTreeSet<i64> = train_ids
+                .iter()
+                .copied()
+                .filter(|&i| day(i) < first)
+                .collect();
+            assert!(!past.is_empty());
+            assert!(
+                seen.fits.contains(&past),
+                "fold {f}: a part scored from outside its past"
+            );
+        }
+        // The calibrators saw only scored rows: every training row but the
+        // earliest block.
+        let calibrated = &seen.calibrations[0];
+        let earliest = train_ids.iter().map(|&i| day(i)).fold(f64::MAX, f64::min);
+        assert!(calibrated.is_subset(&train_ids));
+        assert!(calibrated.iter().all(|&i| day(i) > earliest));
+    }
+}

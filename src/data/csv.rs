@@ -169,6 +169,7 @@ fn parse_stream(
         warnings,
         levels: Default::default(),
         groups: None,
+        order: None,
     })
 }
 

@@ -11,6 +11,14 @@
 //! by the seed and then taken largest first, each go to the fold whose
 //! class counts are furthest below their shares for the classes the group
 //! holds (ties to the smaller fold, then the lower index).
+//!
+//! With a time order, the rows are sorted by time (ties by row) and cut
+//! into K + 1 blocks of nearly equal size; outer fold f trains on blocks
+//! 0..=f and tests on block f + 1 (an expanding window), so no fold trains
+//! on rows later than the ones it is tested on. Inside a training split the
+//! same cut into M + 1 blocks gives the calibration scores: inner fit m
+//! trains on blocks 0..=m and scores block m + 1, so the first block is
+//! never scored and every scored row was scored from its past.
 
 use crate::common::rng::SplitMix64;
 
@@ -120,6 +128,38 @@ pub fn grouped(
     fold
 }
 
+/// The time block (in `0..=k`) of every row: sorted by `order` (ties by
+/// row), cut into `k + 1` blocks of nearly equal size.
+pub fn time_blocks(order: &[f64], k: usize) -> Vec<usize> {
+    let mut rows: Vec<usize> = (0..order.len()).collect();
+    rows.sort_by(|&a, &b| order[a].total_cmp(&order[b]).then(a.cmp(&b)));
+    let n = rows.len();
+    let mut block = vec![0; n];
+    for (rank, &r) in rows.iter().enumerate() {
+        block[r] = rank * (k + 1) / n.max(1);
+    }
+    block
+}
+
+/// The training and test positions of fold `f`: with `time`, the expanding
+/// window over time blocks (train on blocks up to `f`, test on `f + 1`),
+/// otherwise everything but fold `f` against fold `f`.
+pub fn split_for(assignment: &[usize], f: usize, time: bool) -> (Vec<usize>, Vec<usize>) {
+    if !time {
+        return split(assignment, f);
+    }
+    let mut train = Vec::new();
+    let mut test = Vec::new();
+    for (i, &b) in assignment.iter().enumerate() {
+        if b <= f {
+            train.push(i);
+        } else if b == f + 1 {
+            test.push(i);
+        }
+    }
+    (train, test)
+}
+
 /// The training and test positions for fold `f`.
 pub fn split(assignment: &[usize], f: usize) -> (Vec<usize>, Vec<usize>) {
     let mut train = Vec::new();
@@ -220,6 +260,24 @@ mod tests {
         }
         assert_eq!(a, grouped(&labels, &groups, 2, 5, 9));
         assert_ne!(a, grouped(&labels, &groups, 2, 5, 10));
+    }
+
+    #[test]
+    fn time_folds_never_train_on_the_future() {
+        let order: Vec<f64> = (0..103).map(|i| f64::from((i * 37) % 103)).collect();
+        let blocks = time_blocks(&order, 4);
+        for f in 0..4 {
+            let (train, test) = split_for(&blocks, f, true);
+            assert!(!train.is_empty() && !test.is_empty());
+            let latest = train.iter().map(|&r| order[r]).fold(f64::MIN, f64::max);
+            let earliest = test.iter().map(|&r| order[r]).fold(f64::MAX, f64::min);
+            assert!(latest < earliest, "fold {f}");
+            // An expanding window: each fold trains on all that came before.
+            let (all_before, _) = split_for(&blocks, f + 1, true);
+            if f < 3 {
+                assert_eq!(all_before.len(), train.len() + test.len());
+            }
+        }
     }
 
     #[test]

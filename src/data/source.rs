@@ -48,6 +48,10 @@ pub struct DatasetSpec {
     /// each group whole. The column is not a feature.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub group: Option<String>,
+    /// A column of dates or times: folds become an expanding window over
+    /// time, and calibration scores come from the past only. Not a feature.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time: Option<String>,
     /// The cap on categorical encodings (`max_levels`, `min_level_rows`).
     #[serde(default, skip_serializing_if = "LevelCap::is_default")]
     pub levels: LevelCap,
@@ -112,6 +116,17 @@ fn finish(mut table: Table, spec: &DatasetSpec) -> Result<Table> {
         .map_err(|m| Error::Manifest(format!("{}: dataset `{}`: {m}", spec.origin, spec.name)))?;
     if let Some(g) = &spec.group {
         table.take_groups(g).map_err(|m| {
+            Error::Manifest(format!("{}: dataset `{}`: {m}", spec.origin, spec.name))
+        })?;
+    }
+    if spec.time.is_some() && spec.group.is_some() {
+        return Err(Error::Manifest(format!(
+            "{}: dataset `{}` names both `group` and `time`; folds are either grouped or time-ordered, so keep one",
+            spec.origin, spec.name
+        )));
+    }
+    if let Some(t) = &spec.time {
+        table.take_order(t).map_err(|m| {
             Error::Manifest(format!("{}: dataset `{}`: {m}", spec.origin, spec.name))
         })?;
     }

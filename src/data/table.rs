@@ -44,6 +44,10 @@ pub struct Table {
     /// A group id per row (rows of one customer, patient or device), when
     /// the dataset names a `group` column: folds keep each group whole.
     pub groups: Option<Vec<u32>>,
+    /// A time per row, when the dataset names a `time` column: folds are
+    /// then an expanding window over time. Text times are ranked in text
+    /// order, which is time order for ISO 8601 dates.
+    pub order: Option<Vec<f64>>,
 }
 
 /// The cap on a categorical column's encoding, fitted on training rows only:
@@ -147,6 +151,38 @@ impl Table {
             ));
         }
         self.groups = Some(ids.into_iter().flatten().collect());
+        Ok(())
+    }
+
+    /// Takes the named column out of the features as the rows' times.
+    pub fn take_order(&mut self, name: &str) -> Result<(), String> {
+        let Some(at) = self.columns.iter().position(|c| c.name == name) else {
+            return Err(format!(
+                "`time` names `{name}`, which is not a feature column; give the column of dates or times"
+            ));
+        };
+        let column = self.columns.remove(at);
+        let times: Vec<f64> = match column.data {
+            ColumnData::Numeric(v) => v,
+            // Codes follow the sorted levels, so they rank the text.
+            ColumnData::Categorical { codes, .. } => codes
+                .into_iter()
+                .map(|c| {
+                    if c == MISSING_CODE {
+                        f64::NAN
+                    } else {
+                        f64::from(c)
+                    }
+                })
+                .collect(),
+        };
+        if let Some(row) = times.iter().position(|t| t.is_nan()) {
+            return Err(format!(
+                "the time column `{name}` is empty on data row {}; give every row its time",
+                row + 1
+            ));
+        }
+        self.order = Some(times);
         Ok(())
     }
 

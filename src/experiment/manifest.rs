@@ -137,6 +137,7 @@ struct RawDataset {
     decimal: Option<Spanned<String>>,
     exclude: Option<Vec<Spanned<String>>>,
     group: Option<Spanned<String>>,
+    time: Option<Spanned<String>>,
     max_levels: Option<Spanned<usize>>,
     min_level_rows: Option<Spanned<usize>>,
 }
@@ -168,6 +169,12 @@ pub fn default_evaluation(seed: u64) -> Evaluation {
 pub fn check_class_counts(table: &Table, eval: &Evaluation) -> Result<()> {
     let k = eval.outer_folds;
     let m = eval.inner_folds;
+    if table.order.is_some() && eval.repeats > 1 {
+        return Err(Error::Data(format!(
+            "{}: dataset `{}` is time-ordered, so its folds are the same on every repeat; set `repeats = 1` in [evaluation]",
+            table.source, table.name
+        )));
+    }
     if let Some(groups) = &table.groups {
         let mut distinct = groups.clone();
         distinct.sort_unstable();
@@ -353,6 +360,7 @@ fn datasets(at: &Locator, raw: Vec<RawDataset>) -> Vec<DatasetSpec> {
             segment_of: None,
             exclude: exclusions(at, &d),
             group: d.group.as_ref().map(|g| g.get_ref().clone()),
+            time: d.time.as_ref().map(|t| t.get_ref().clone()),
             levels: level_cap(at, &d),
         });
     }

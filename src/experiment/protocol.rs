@@ -95,15 +95,24 @@ pub fn run_cell(
         .groups
         .as_ref()
         .map(|g| plan.train.iter().map(|&r| g[r]).collect());
-    let inner = folds::assign(
-        &y_train,
-        groups.as_deref(),
-        k,
-        plan.inner_folds,
-        plan.inner_seed,
-    );
+    // With a time order, the calibration scores come from an expanding
+    // window too: each inner fit sees only the past of what it scores.
+    let times: Option<Vec<f64>> = table
+        .order
+        .as_ref()
+        .map(|o| plan.train.iter().map(|&r| o[r]).collect());
+    let inner = match &times {
+        Some(t) => folds::time_blocks(t, plan.inner_folds),
+        None => folds::assign(
+            &y_train,
+            groups.as_deref(),
+            k,
+            plan.inner_folds,
+            plan.inner_seed,
+        ),
+    };
     let splits: Vec<(Vec<usize>, Vec<usize>)> = (0..plan.inner_folds)
-        .map(|m| folds::split(&inner, m))
+        .map(|m| folds::split_for(&inner, m, times.is_some()))
         .collect();
     let mut fits: Vec<Result<Scores>> = (0..=plan.inner_folds)
         .into_par_iter()
@@ -139,10 +148,32 @@ pub fn run_cell(
     }
     let oof = oof.ok_or_else(|| Error::Fit("no inner folds".into()))?;
     let test = test?;
+    // Rows no inner fit scored (the first time block) have no calibration
+    // score; the calibrators see only the scored rows.
+    let scored: Vec<usize> = {
+        let mut v: Vec<usize> = splits
+            .iter()
+            .flat_map(|(_, val)| val.iter().copied())
+            .collect();
+        v.sort_unstable();
+        v
+    };
+    let (oof, y_oof) = if scored.len() == plan.train.len() {
+        (oof, y_train)
+    } else {
+        let pick = |a: &Array2<f64>| a.select(ndarray::Axis(0), &scored);
+        (
+            Scores {
+                proba: pick(&oof.proba),
+                native: oof.native.as_ref().map(pick),
+            },
+            scored.iter().map(|&i| y_train[i]).collect(),
+        )
+    };
 
     Ok(evaluate_methods(
         &oof,
-        &y_train,
+        &y_oof,
         &test,
         &y_test,
         methods,

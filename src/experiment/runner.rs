@@ -192,7 +192,8 @@ fn run_or_reuse(s: &Shared<'_>, c: &Cell) -> Result<(CellRecord, bool)> {
     if let Some(record) = s.store.reusable(&path, fp) {
         return Ok((record, false));
     }
-    let (train, test) = folds::split(&s.outer[c.dataset][c.repeat], c.fold);
+    let (train, test) =
+        folds::split_for(&s.outer[c.dataset][c.repeat], c.fold, table.order.is_some());
     let (results, error) = match compute(s, c, &train, &test) {
         Ok(results) => (results, None),
         Err(e) => (Vec::new(), Some(e.to_string())),

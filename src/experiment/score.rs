@@ -106,6 +106,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 segment_of: (*d != name).then(|| name.clone()),
                 exclude: Vec::new(),
                 group: None,
+                time: None,
                 levels: Default::default(),
             })
             .collect(),

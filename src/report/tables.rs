@@ -141,10 +141,46 @@ fn bins_note(results: &Results) -> String {
 
 fn interval_note(results: &Results) -> String {
     let e = &results.exp.evaluation;
-    format!(
+    let mut note = format!(
         "Intervals: 95% over the {} x {} outer folds, Student's t with Nadeau & Bengio's corrected variance (1/J + n_test/n_train) s^2, because folds share training rows; a change is paired fold by fold against the raw row (`none`).",
         e.repeats, e.outer_folds
-    )
+    );
+    for d in &results.exp.datasets {
+        if let Some(t) = &d.time {
+            note.push_str(&format!(
+                " `{}` is time-ordered by `{t}`: its rows are cut into {} blocks by time, fold f trains on blocks 1 to f and tests on block f + 1 (an expanding window), and its calibration scores come from the past only.",
+                d.name,
+                e.outer_folds + 1
+            ));
+        } else if let Some(g) = &d.group {
+            note.push_str(&format!(
+                " `{}` keeps each `{g}` group whole in one fold, outer and inner.",
+                d.name
+            ));
+        }
+    }
+    note
+}
+
+/// How each dataset's folds were made, for the notes of tables that
+/// compare datasets.
+pub fn scheme_note(results: &Results) -> Option<String> {
+    let special: Vec<String> = results
+        .exp
+        .datasets
+        .iter()
+        .filter_map(|d| match (&d.time, &d.group) {
+            (Some(t), _) => Some(format!("`{}` time-ordered by `{t}`", d.name)),
+            (None, Some(g)) => Some(format!("`{}` grouped by `{g}`", d.name)),
+            (None, None) => None,
+        })
+        .collect();
+    (!special.is_empty()).then(|| {
+        format!(
+            "Folds are stratified K-fold except: {} (see the metrics table's notes).",
+            special.join(", ")
+        )
+    })
 }
 
 /// Per (dataset, family, method, metric): mean, interval and change.
@@ -389,6 +425,7 @@ pub fn dataset_table(results: &Results, metric: &Metric, intervals: &Intervals) 
         direction(metric)
     ));
     t.notes.extend(ranking_note(metric));
+    t.notes.extend(scheme_note(results));
     for d in results.datasets() {
         let raw: Vec<f64> = results
             .exp
