@@ -382,4 +382,18 @@ fn a_time_column_runs_an_expanding_window_and_the_report_says_so() {
         .output()
         .unwrap();
     assert!(String::from_utf8_lossy(&o.stderr).contains("names both `group` and `time`"));
+    std::fs::write(
+        tmp.path().join("t.toml"),
+        manifest("").replace("time = \"signup\"", "time = \"joined\""),
+    )
+    .unwrap();
+    let o = candor(tmp.path())
+        .args(["check", "t.toml"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("`time` names `joined`, which is not a feature column"),
+        "{err}"
+    );
 }

@@ -5,8 +5,8 @@ use super::args::CsvArgs;
 use super::{Output, Status};
 use crate::common::defaults;
 use crate::common::error::Result;
-use crate::data::csv::read_csv;
 use crate::data::inspect::inspect;
+use crate::data::source::read_file;
 use crate::experiment::add::{append_dataset, NewDataset};
 use crate::export::{Exporter, Text};
 use std::fmt::Write as _;
@@ -19,7 +19,7 @@ pub enum DataCommand {
     /// Schema, missing values, class balance against the folds, and
     /// columns that look like identifiers or leak the target.
     Inspect {
-        /// The CSV (plain or gzip-compressed).
+        /// The data file: CSV (plain or gzip-compressed) or Parquet.
         file: PathBuf,
         #[command(flatten)]
         csv: CsvArgs,
@@ -37,7 +37,7 @@ pub enum DataCommand {
     /// Check a CSV and append a dataset entry for it to a manifest,
     /// keeping the manifest's comments and layout.
     Add {
-        /// The CSV (plain or gzip-compressed).
+        /// The data file: CSV (plain or gzip-compressed) or Parquet.
         file: PathBuf,
         #[command(flatten)]
         csv: CsvArgs,
@@ -65,7 +65,7 @@ pub fn execute(command: DataCommand, out: &mut Output) -> Result<Status> {
             inner_folds,
             exclude,
         } => {
-            let mut table = read_csv(&file, &csv.target, csv.positive.as_deref(), &csv.format()?)?;
+            let mut table = read_file(&file, &csv.target, csv.positive.as_deref(), &csv.format()?)?;
             table
                 .exclude(&exclude)
                 .map_err(|m| crate::common::error::Error::Manifest(format!("--exclude: {m}")))?;
@@ -90,7 +90,7 @@ pub fn execute(command: DataCommand, out: &mut Output) -> Result<Status> {
             exclude,
         } => {
             let format = csv.format()?;
-            let table = read_csv(&file, &csv.target, csv.positive.as_deref(), &format)?;
+            let table = read_file(&file, &csv.target, csv.positive.as_deref(), &format)?;
             let entry = append_dataset(
                 &to,
                 &NewDataset {

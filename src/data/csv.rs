@@ -94,6 +94,25 @@ pub fn parse_csv(bytes: &[u8], file: &str, target: &str, positive: Option<&str>)
     )
 }
 
+/// Parses CSV bytes in a given format; `file` is used in messages only.
+pub fn parse_with(
+    bytes: &[u8],
+    file: &str,
+    target: &str,
+    positive: Option<&str>,
+    format: &CsvFormat,
+) -> Result<Table> {
+    let sha = hex_sha256(bytes);
+    parse_stream(
+        &mut || Ok(Box::new(bytes) as Box<dyn Read>),
+        file,
+        target,
+        positive,
+        format,
+        sha,
+    )
+}
+
 /// Reads a CSV file, gzip-compressed or not (by its first bytes), without
 /// holding the text in memory: one pass finds each column's type, a second
 /// fills typed columns, so memory stays near the size of the columns.

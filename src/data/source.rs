@@ -4,6 +4,7 @@
 
 use super::catalog::Catalog;
 use super::csv::{parse_csv, read_csv, CsvFormat};
+use super::parquet::{read_parquet, MAGIC};
 use super::table::{LevelCap, Table};
 use crate::common::error::{Error, Result};
 use serde::{Deserialize, Serialize};
@@ -57,6 +58,26 @@ pub struct DatasetSpec {
     pub levels: LevelCap,
 }
 
+/// Reads a data file as CSV (plain or gzip) or Parquet, chosen by its first
+/// bytes, so the file's name does not matter.
+pub fn read_file(
+    path: &Path,
+    target: &str,
+    positive: Option<&str>,
+    format: &CsvFormat,
+) -> Result<Table> {
+    let mut head = [0u8; 4];
+    let is_parquet = std::fs::File::open(path)
+        .and_then(|mut f| std::io::Read::read_exact(&mut f, &mut head))
+        .is_ok()
+        && &head == MAGIC;
+    if is_parquet {
+        read_parquet(path, target, positive, format)
+    } else {
+        read_csv(path, target, positive, format)
+    }
+}
+
 /// Loads a manifest's dataset entry, from the catalog or from a path
 /// relative to `manifest_dir`.
 pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) -> Result<Table> {
@@ -97,7 +118,7 @@ pub fn load(spec: &DatasetSpec, catalog: Option<&Catalog>, manifest_dir: &Path) 
                 )));
             }
             let target = spec.target.clone().unwrap_or_default();
-            let table = read_csv(&path, &target, spec.positive.as_deref(), &spec.format)
+            let table = read_file(&path, &target, spec.positive.as_deref(), &spec.format)
                 .map_err(in_entry)?;
             return finish(table, spec);
         }

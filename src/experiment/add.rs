@@ -60,6 +60,7 @@ fn name_from(file: &Path) -> String {
         .trim_end_matches(".gz")
         .trim_end_matches(".csv")
         .trim_end_matches(".tsv")
+        .trim_end_matches(".parquet")
         .trim_end_matches(".toml");
     let clean: String = stem
         .chars()
