@@ -83,15 +83,7 @@ type Opener<'a> = dyn FnMut() -> Result<Box<dyn Read + 'a>> + 'a;
 
 /// Parses CSV bytes in the default format; `file` is used in messages only.
 pub fn parse_csv(bytes: &[u8], file: &str, target: &str, positive: Option<&str>) -> Result<Table> {
-    let sha = hex_sha256(bytes);
-    parse_stream(
-        &mut || Ok(Box::new(bytes) as Box<dyn Read>),
-        file,
-        target,
-        positive,
-        &CsvFormat::default(),
-        sha,
-    )
+    parse_with(bytes, file, target, positive, &CsvFormat::default())
 }
 
 /// Parses CSV bytes in a given format; `file` is used in messages only.
