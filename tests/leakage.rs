@@ -204,7 +204,7 @@ fn groups_stay_whole_in_the_outer_and_inner_folds() {
     t.take_groups("customer").unwrap();
     let groups = t.groups.clone().unwrap();
     let group_of = |id: i64| groups[(id - 1000) as usize];
-    let assignment = folds::assign(&t.labels, Some(&groups), 2, 3, 1);
+    let assignment = folds::assign(&t.labels, Some(&groups), None, 2, 3, 1);
     let (train, test) = folds::split(&assignment, 0);
     let outer = |rows: &[usize]| -> BTreeSet<u32> { rows.iter().map(|&r| groups[r]).collect() };
     assert!(outer(&train).is_disjoint(&outer(&test)));

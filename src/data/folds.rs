@@ -41,18 +41,21 @@ pub fn stratified(labels: &[usize], n_classes: usize, k: usize, seed: u64) -> Ve
     fold
 }
 
-/// The fold (in `0..k`) of every row; with `groups` (a group id per row),
-/// whole groups, as [`grouped`] deals them.
+/// The fold of every row: with `order` (a time per row), its time block in
+/// `0..=k` (split it with [`split_for`] and `time` true); otherwise its fold
+/// in `0..k`, keeping `groups` whole when given.
 pub fn assign(
     labels: &[usize],
     groups: Option<&[u32]>,
+    order: Option<&[f64]>,
     n_classes: usize,
     k: usize,
     seed: u64,
 ) -> Vec<usize> {
-    match groups {
-        Some(g) => grouped(labels, g, n_classes, k, seed),
-        None => stratified(labels, n_classes, k, seed),
+    match (order, groups) {
+        (Some(o), _) => time_blocks(o, k),
+        (None, Some(g)) => grouped(labels, g, n_classes, k, seed),
+        (None, None) => stratified(labels, n_classes, k, seed),
     }
 }
 

@@ -53,6 +53,16 @@ pub struct Preprocessor {
     outputs: Vec<Output>,
 }
 
+/// A categorical column's level code on a row, missing values taking the
+/// training mode `fill`; `None` for a numeric column.
+fn level(table: &Table, column: usize, row: usize, fill: u32) -> Option<u32> {
+    match &table.columns[column].data {
+        ColumnData::Categorical { codes, .. } if codes[row] == MISSING_CODE => Some(fill),
+        ColumnData::Categorical { codes, .. } => Some(codes[row]),
+        ColumnData::Numeric(_) => None,
+    }
+}
+
 impl Output {
     fn raw(&self, table: &Table, row: usize) -> f64 {
         match self.source {
@@ -60,32 +70,16 @@ impl Output {
                 ColumnData::Numeric(v) if !v[row].is_nan() => v[row],
                 _ => fill,
             },
-            Source::Indicator { column, code, fill } => match &table.columns[column].data {
-                ColumnData::Categorical { codes, .. } => {
-                    let c = if codes[row] == MISSING_CODE {
-                        fill
-                    } else {
-                        codes[row]
-                    };
-                    f64::from(u8::from(c == code))
-                }
-                ColumnData::Numeric(_) => 0.0,
-            },
+            Source::Indicator { column, code, fill } => {
+                f64::from(u8::from(level(table, column, row, fill) == Some(code)))
+            }
             Source::Other {
                 column,
                 ref kept,
                 fill,
-            } => match &table.columns[column].data {
-                ColumnData::Categorical { codes, .. } => {
-                    let c = if codes[row] == MISSING_CODE {
-                        fill
-                    } else {
-                        codes[row]
-                    };
-                    f64::from(u8::from(kept.binary_search(&c).is_err()))
-                }
-                ColumnData::Numeric(_) => 0.0,
-            },
+            } => f64::from(u8::from(
+                level(table, column, row, fill).is_some_and(|c| kept.binary_search(&c).is_err()),
+            )),
         }
     }
 }

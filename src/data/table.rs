@@ -89,43 +89,39 @@ impl Table {
         self.classes.len()
     }
 
-    /// Drops the named columns (identifiers, leaks, free text); a name that
-    /// is not a feature column is an error listing the columns there are.
+    /// Takes a feature column out of the table, for a setting `key` that
+    /// names it; a name that is not a feature column is an error listing
+    /// the columns there are.
+    fn take_column(&mut self, name: &str, key: &str) -> Result<ColumnData, String> {
+        let Some(at) = self.columns.iter().position(|c| c.name == name) else {
+            let shown: Vec<&str> = self
+                .columns
+                .iter()
+                .take(20)
+                .map(|c| c.name.as_str())
+                .collect();
+            return Err(format!(
+                "`{key}` names `{name}`, which is not a feature column (the target cannot be used); columns are: {}",
+                shown.join(", ")
+            ));
+        };
+        Ok(self.columns.remove(at).data)
+    }
+
+    /// Drops the named columns (identifiers, leaks, free text).
     pub fn exclude(&mut self, names: &[String]) -> Result<(), String> {
-        for name in names {
-            if !self.columns.iter().any(|c| &c.name == name) {
-                let shown: Vec<&str> = self
-                    .columns
-                    .iter()
-                    .take(20)
-                    .map(|c| c.name.as_str())
-                    .collect();
-                return Err(format!(
-                    "`exclude` names `{name}`, which is not a feature column (the target cannot be excluded); columns are: {}",
-                    shown.join(", ")
-                ));
+        for (i, name) in names.iter().enumerate() {
+            if !names[..i].contains(name) {
+                self.take_column(name, "exclude")?;
             }
         }
-        self.columns.retain(|c| !names.contains(&c.name));
         Ok(())
     }
 
     /// Takes the named column out of the features as the rows' group ids.
     /// A missing group value is an error naming the first such row.
     pub fn take_groups(&mut self, name: &str) -> Result<(), String> {
-        let Some(at) = self.columns.iter().position(|c| c.name == name) else {
-            return Err(format!(
-                "`group` names `{name}`, which is not a feature column; columns are: {}",
-                self.columns
-                    .iter()
-                    .take(20)
-                    .map(|c| c.name.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ));
-        };
-        let column = self.columns.remove(at);
-        let ids: Vec<Option<u32>> = match column.data {
+        let ids: Vec<Option<u32>> = match self.take_column(name, "group")? {
             ColumnData::Categorical { codes, .. } => codes
                 .into_iter()
                 .map(|c| (c != MISSING_CODE).then_some(c))
@@ -156,13 +152,7 @@ impl Table {
 
     /// Takes the named column out of the features as the rows' times.
     pub fn take_order(&mut self, name: &str) -> Result<(), String> {
-        let Some(at) = self.columns.iter().position(|c| c.name == name) else {
-            return Err(format!(
-                "`time` names `{name}`, which is not a feature column; give the column of dates or times"
-            ));
-        };
-        let column = self.columns.remove(at);
-        let times: Vec<f64> = match column.data {
+        let times: Vec<f64> = match self.take_column(name, "time")? {
             ColumnData::Numeric(v) => v,
             // Codes follow the sorted levels, so they rank the text.
             ColumnData::Categorical { codes, .. } => codes

@@ -55,16 +55,14 @@ pub fn outer_folds(exp: &Experiment, tables: &[Table]) -> Vec<Vec<Vec<usize>>> {
             (0..eval.repeats)
                 .map(|r| {
                     let seed = derive_seed(exp.seed, &["outer", &t.name, &r.to_string()]);
-                    match &t.order {
-                        Some(order) => folds::time_blocks(order, eval.outer_folds),
-                        None => folds::assign(
-                            &t.labels,
-                            t.groups.as_deref(),
-                            t.n_classes(),
-                            eval.outer_folds,
-                            seed,
-                        ),
-                    }
+                    folds::assign(
+                        &t.labels,
+                        t.groups.as_deref(),
+                        t.order.as_deref(),
+                        t.n_classes(),
+                        eval.outer_folds,
+                        seed,
+                    )
                 })
                 .collect()
         })

@@ -101,16 +101,14 @@ pub fn run_cell(
         .order
         .as_ref()
         .map(|o| plan.train.iter().map(|&r| o[r]).collect());
-    let inner = match &times {
-        Some(t) => folds::time_blocks(t, plan.inner_folds),
-        None => folds::assign(
-            &y_train,
-            groups.as_deref(),
-            k,
-            plan.inner_folds,
-            plan.inner_seed,
-        ),
-    };
+    let inner = folds::assign(
+        &y_train,
+        groups.as_deref(),
+        times.as_deref(),
+        k,
+        plan.inner_folds,
+        plan.inner_seed,
+    );
     let splits: Vec<(Vec<usize>, Vec<usize>)> = (0..plan.inner_folds)
         .map(|m| folds::split_for(&inner, m, times.is_some()))
         .collect();
@@ -148,19 +146,12 @@ pub fn run_cell(
     }
     let oof = oof.ok_or_else(|| Error::Fit("no inner folds".into()))?;
     let test = test?;
-    // Rows no inner fit scored (the first time block) have no calibration
-    // score; the calibrators see only the scored rows.
-    let scored: Vec<usize> = {
-        let mut v: Vec<usize> = splits
-            .iter()
-            .flat_map(|(_, val)| val.iter().copied())
-            .collect();
-        v.sort_unstable();
-        v
-    };
-    let (oof, y_oof) = if scored.len() == plan.train.len() {
+    // With a time order, no inner fit scores the first time block: the
+    // calibrators see only the scored rows.
+    let (oof, y_oof) = if times.is_none() {
         (oof, y_train)
     } else {
+        let scored: Vec<usize> = (0..inner.len()).filter(|&i| inner[i] > 0).collect();
         let pick = |a: &Array2<f64>| a.select(ndarray::Axis(0), &scored);
         (
             Scores {
