@@ -18,6 +18,7 @@ use crate::common::stats::fold_interval;
 use crate::common::table::{Table, Value};
 use crate::experiment::summary::fold_values;
 use crate::metrics::Metric;
+use std::collections::BTreeMap;
 
 /// Where a pair stands against the best pair of its dataset.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -86,7 +87,19 @@ pub fn standings(per_pair: &[Vec<f64>], ratio: f64) -> Vec<Standing> {
 }
 
 /// Every pair of one dataset with its standing, in manifest order.
-pub fn for_dataset(
+pub type DatasetStandings = Vec<(String, String, f64, Standing)>;
+
+/// The standings of every independent dataset, by dataset name, computed
+/// once for the datasets table and the choices table.
+pub fn all(results: &Results, metric: &Metric) -> BTreeMap<String, DatasetStandings> {
+    results
+        .datasets()
+        .map(|d| (d.name.clone(), for_dataset(results, &d.name, metric)))
+        .collect()
+}
+
+/// Every pair of one dataset with its standing, in manifest order.
+fn for_dataset(
     results: &Results,
     dataset: &str,
     metric: &Metric,
@@ -113,7 +126,11 @@ pub fn for_dataset(
 
 /// The choices table: per dataset, every pair against the best pair, best
 /// first, then by mean.
-pub fn table(results: &Results, metric: &Metric) -> Table {
+pub fn table(
+    results: &Results,
+    metric: &Metric,
+    standings: &BTreeMap<String, DatasetStandings>,
+) -> Table {
     let m = metric.name;
     let mut t = Table::new(
         "choices",
@@ -137,7 +154,7 @@ pub fn table(results: &Results, metric: &Metric) -> Table {
         direction(metric)
     ));
     for d in results.datasets() {
-        let mut rows = for_dataset(results, &d.name, metric);
+        let mut rows = standings.get(&d.name).cloned().unwrap_or_default();
         let order = |s: &Standing| match s {
             Standing::Best => 0.0,
             Standing::Tied { diff, .. } | Standing::Worse { diff, .. } => *diff,

@@ -234,15 +234,16 @@ pub struct Report {
 pub fn build(results: &Results, opts: &ReportOptions) -> Result<Report> {
     let (metric, why) = deciding_metric(opts.metric.as_deref(), &results.exp.metrics)?;
     let intervals = tables::intervals(results);
+    let standings = choices::all(results, metric);
     let mut all = vec![
         tables::metric_table(results, &intervals),
         tables::family_table(results, metric, &intervals),
         {
-            let mut t = tables::dataset_table(results, metric, &intervals);
+            let mut t = tables::dataset_table(results, metric, &intervals, &standings);
             t.notes.splice(0..0, why);
             t
         },
-        choices::table(results, metric),
+        choices::table(results, metric, &standings),
     ];
     let diagnoses = diagnosis::table(results);
     all.push(diagnoses);

@@ -403,7 +403,12 @@ pub(super) fn argmin(v: &[f64]) -> Option<usize> {
 /// Per dataset: the best family raw, and the best (family, method) pair,
 /// with where the best raw family stands against the best pair (paired
 /// fold by fold, see [`super::choices`]) and how many pairs are tied.
-pub fn dataset_table(results: &Results, metric: &Metric, intervals: &Intervals) -> Table {
+pub fn dataset_table(
+    results: &Results,
+    metric: &Metric,
+    intervals: &Intervals,
+    standings: &BTreeMap<String, super::choices::DatasetStandings>,
+) -> Table {
     let m = metric.name;
     let mut t = Table::new(
         "datasets",
@@ -444,7 +449,8 @@ pub fn dataset_table(results: &Results, metric: &Metric, intervals: &Intervals) 
         let score = |v: &[f64]| v.iter().map(|&x| badness(metric, x)).collect::<Vec<f64>>();
         let best_raw = argmin(&score(&raw));
         let best_cal = argmin(&score(&values));
-        let standings = super::choices::for_dataset(results, &d.name, metric);
+        let standings: &[(String, String, f64, super::choices::Standing)] =
+            standings.get(&d.name).map_or(&[], Vec::as_slice);
         let raw_standing = best_raw.and_then(|i| {
             let f = &results.exp.families[i].name;
             standings
