@@ -8,7 +8,7 @@ use candor::common::params::Params;
 use candor::data::catalog::Catalog;
 use candor::data::preprocess::Preprocessor;
 use candor::data::source::{DataSource, DatasetSpec};
-use candor::learner::FAMILIES;
+use candor::learner::own_families;
 use std::path::Path;
 use std::time::Instant;
 
@@ -43,11 +43,9 @@ fn main() {
         .skip(1)
         .filter(|a| !a.starts_with('-'))
         .collect();
-    for family in FAMILIES
-        .iter()
-        .filter(|f| wanted.is_empty() || wanted.iter().any(|w| w == f.kind))
+    for family in own_families().filter(|f| wanted.is_empty() || wanted.iter().any(|w| w == f.kind))
     {
-        let learner = (family.build)(&Params::defaults(family.params));
+        let learner = family.learner(&Params::defaults(family.params)).unwrap();
         let mut line = format!("{:16}", family.kind);
         for table in &tables {
             let n = table.rows();

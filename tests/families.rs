@@ -29,7 +29,11 @@ fn binary_logistic_matches_scikit_learn() {
         let l2 = case["l2"].as_f64().unwrap();
         let mut params = Params::defaults(family.params);
         params.0.insert("l2".into(), ParamValue::Float(l2));
-        let model = (family.build)(&params).fit(x.view(), &y, 2, 0).unwrap();
+        let model = family
+            .learner(&params)
+            .unwrap()
+            .fit(x.view(), &y, 2, 0)
+            .unwrap();
         let scores = model.predict(x.view());
         let coef: Vec<f64> = serde_json::from_value(case["coef"].clone()).unwrap();
         let intercept = case["intercept"].as_f64().unwrap();
@@ -50,7 +54,7 @@ mod every_family {
     use candor::common::rng::SplitMix64;
     use candor::data::csv::parse_csv;
     use candor::experiment::protocol::{run_cell, CellPlan};
-    use candor::learner::{self, FAMILIES};
+    use candor::learner;
     use candor::metrics::{MetricOptions, METRICS};
     use ndarray::Array2;
 
@@ -78,7 +82,9 @@ mod every_family {
             .build()
             .unwrap();
         pool.install(|| {
-            let model = (family.build)(&Params::defaults(family.params))
+            let model = family
+                .learner(&Params::defaults(family.params))
+                .unwrap()
                 .fit(x.view(), &y, k, 42)
                 .unwrap();
             model.predict(t.view()).proba
@@ -87,7 +93,7 @@ mod every_family {
 
     #[test]
     fn same_seed_same_bits_on_any_thread_count() {
-        for family in FAMILIES {
+        for family in learner::own_families() {
             for k in [2, 3] {
                 let one = fit_predict(family.kind, k, 1);
                 let four = fit_predict(family.kind, k, 4);
@@ -115,7 +121,8 @@ mod every_family {
             .map(|m| (m.name.to_string(), (m.build)(&Settings::default())))
             .collect();
         let metrics: Vec<_> = METRICS.iter().collect();
-        let learner = (family.build)(&Params::defaults(family.params));
+        let trainer =
+            learner::Trainer::Learner(family.learner(&Params::defaults(family.params)).unwrap());
         let plan = CellPlan {
             table,
             train,
@@ -128,7 +135,7 @@ mod every_family {
         };
         run_cell(
             &plan,
-            learner.as_ref(),
+            &trainer,
             &methods,
             &metrics,
             &MetricOptions::default(),
@@ -151,7 +158,7 @@ mod every_family {
         let table = parse_csv(csv.as_bytes(), "d.csv", "y", Some("q")).unwrap();
         let one_class: Vec<usize> = (0..20).collect();
         let test: Vec<usize> = (20..40).collect();
-        for family in FAMILIES {
+        for family in learner::own_families() {
             let err = cell_error(&table, &one_class, &test, family);
             assert!(err.contains("single class"), "{}: {err}", family.kind);
         }
@@ -164,7 +171,7 @@ mod every_family {
         let table = parse_csv(csv.as_bytes(), "d.csv", "y", Some("q")).unwrap();
         let train: Vec<usize> = (0..30).collect();
         let test: Vec<usize> = (30..40).collect();
-        for family in FAMILIES {
+        for family in learner::own_families() {
             let err = cell_error(&table, &train, &test, family);
             assert!(err.contains("constant"), "{}: {err}", family.kind);
         }
@@ -188,7 +195,11 @@ fn linear_svm_matches_scikit_learn() {
             .0
             .insert("stop_tolerance".into(), ParamValue::Float(1e-8));
         params.0.insert("max_steps".into(), ParamValue::Int(1000));
-        let model = (family.build)(&params).fit(x.view(), &y, 2, 0).unwrap();
+        let model = family
+            .learner(&params)
+            .unwrap()
+            .fit(x.view(), &y, 2, 0)
+            .unwrap();
         let margins = model.predict(x.view()).native.unwrap();
         let coef: Vec<f64> = serde_json::from_value(case["coef"].clone()).unwrap();
         let intercept = case["intercept"].as_f64().unwrap();
@@ -217,7 +228,9 @@ fn boosted_stumps_offer_both_probability_conventions() {
         params
             .0
             .insert("probability".into(), ParamValue::Choice(convention));
-        (family.build)(&params)
+        family
+            .learner(&params)
+            .unwrap()
             .fit(x.view(), &y, 2, 0)
             .unwrap()
             .predict(x.view())

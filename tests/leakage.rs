@@ -10,7 +10,7 @@ use candor::data::csv::parse_csv;
 use candor::data::folds;
 use candor::data::table::Table;
 use candor::experiment::protocol::{run_cell, CellPlan};
-use candor::learner::{Learner, Model};
+use candor::learner::{Learner, Model, Trainer};
 use candor::metrics::{MetricOptions, METRICS};
 use ndarray::{Array2, ArrayView2};
 use std::collections::BTreeSet;
@@ -137,6 +137,7 @@ fn run(table: &Table, train: &[usize], test: &[usize], standardise: bool) -> See
         log: log.clone(),
         standardise,
     };
+    let spy = Trainer::Learner(Box::new(spy));
     run_cell(&plan, &spy, &methods, &metrics, &MetricOptions::default()).unwrap();
     let mut seen = std::mem::take(&mut *log.lock().unwrap());
     // A cell's fits run in parallel and log in any order.

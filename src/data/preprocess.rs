@@ -176,6 +176,28 @@ impl Preprocessor {
         self.outputs.len()
     }
 
+    /// A name for each output column, for a program that reads the encoded
+    /// matrix: a numeric column keeps its name, an indicator is
+    /// `column=level`, and the pooled level is `column=(other)`.
+    pub fn names(&self, table: &Table) -> Vec<String> {
+        self.outputs
+            .iter()
+            .map(|out| match &out.source {
+                Source::Numeric { column, .. } => table.columns[*column].name.clone(),
+                Source::Indicator { column, code, .. } => {
+                    let c = &table.columns[*column];
+                    match &c.data {
+                        ColumnData::Categorical { levels, .. } => {
+                            format!("{}={}", c.name, levels[*code as usize])
+                        }
+                        ColumnData::Numeric(_) => c.name.clone(),
+                    }
+                }
+                Source::Other { column, .. } => format!("{}=(other)", table.columns[*column].name),
+            })
+            .collect()
+    }
+
     /// Encodes `rows` of `table` with what was learned in `fit`.
     pub fn transform(&self, table: &Table, rows: &[usize]) -> Array2<f64> {
         let mut x = Array2::zeros((rows.len(), self.outputs.len()));

@@ -14,6 +14,8 @@ use crate::data::csv::CsvFormat;
 use crate::data::folds::class_fits_folds;
 use crate::data::source::{DataSource, DatasetSpec};
 use crate::data::table::{LevelCap, Table};
+use crate::learner::program::{self, ModelFile, ProgramSpec};
+use crate::learner::Build;
 use crate::{calibrate, learner, metrics};
 use serde::{Deserialize, Serialize};
 use std::cell::RefCell;
@@ -90,6 +92,9 @@ pub struct FamilySpec {
     /// `run.json`: JSON cannot tell an integer parameter from a float one.
     #[serde(skip_deserializing)]
     pub params: Params,
+    /// The program a `command` family runs; `None` for candor's own.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub program: Option<ProgramSpec>,
 }
 
 #[derive(Deserialize)]
@@ -148,6 +153,9 @@ struct RawFamily {
     name: Spanned<String>,
     kind: Option<Spanned<String>>,
     params: Option<BTreeMap<Spanned<String>, Spanned<toml::Value>>>,
+    command: Option<Spanned<String>>,
+    files: Option<Vec<Spanned<String>>>,
+    env: Option<Spanned<BTreeMap<String, String>>>,
 }
 
 /// The default protocol (see [`defaults`]), with the bootstrap seeded by
@@ -264,7 +272,7 @@ pub fn parse(source: ManifestSource) -> Result<Experiment> {
         ));
     }
     let datasets = datasets(&at, raw.datasets);
-    let families = families(&at, raw.families);
+    let families = families(&at, raw.families, source.dir());
     at.finish()?;
     Ok(Experiment {
         name,
@@ -429,7 +437,7 @@ fn csv_format(at: &Locator, d: &RawDataset) -> CsvFormat {
 }
 
 /// The family entries that pass their checks; problems go to `at`.
-fn families(at: &Locator, raw: Vec<RawFamily>) -> Vec<FamilySpec> {
+fn families(at: &Locator, raw: Vec<RawFamily>, dir: &Path) -> Vec<FamilySpec> {
     let mut families: Vec<FamilySpec> = Vec::new();
     let mut origins: Vec<String> = Vec::new();
     for f in raw {
@@ -466,7 +474,7 @@ fn families(at: &Locator, raw: Vec<RawFamily>) -> Vec<FamilySpec> {
             continue;
         };
         let mut values = Params::defaults(family.params);
-        for (key, value) in f.params.unwrap_or_default() {
+        for (key, value) in f.params.iter().flatten() {
             let Some(spec) = family.params.iter().find(|s| s.name == key.get_ref()) else {
                 let allowed: Vec<&str> = family.params.iter().map(|s| s.name).collect();
                 match learner::renamed(learner::RENAMED_PARAMS, key.get_ref())
@@ -497,14 +505,106 @@ fn families(at: &Locator, raw: Vec<RawFamily>) -> Vec<FamilySpec> {
                 Err(msg) => at.report(value.span().start, &msg),
             }
         }
+        let program = program_spec(at, &f, matches!(family.build, Build::Program), dir);
         origins.push(at.position(f.name.span().start));
         families.push(FamilySpec {
             name: f.name.get_ref().clone(),
             kind,
             params: values,
+            program,
         });
     }
     families
+}
+
+/// A `command` family's program: its command checked, its model files
+/// hashed (relative to the manifest's folder `dir`); the program keys on
+/// any other family are reported.
+fn program_spec(
+    at: &Locator,
+    f: &RawFamily,
+    runs_program: bool,
+    dir: &Path,
+) -> Option<ProgramSpec> {
+    if !runs_program {
+        let keys = [
+            ("command", f.command.as_ref().map(|c| c.span().start)),
+            (
+                "files",
+                f.files
+                    .as_ref()
+                    .and_then(|v| v.first())
+                    .map(|p| p.span().start),
+            ),
+            ("env", f.env.as_ref().map(|e| e.span().start)),
+        ];
+        for (key, start) in keys {
+            if let Some(start) = start {
+                at.report(
+                    start,
+                    &format!("`{key}` applies only to families of kind `command`; remove it or set `kind = \"command\"`"),
+                );
+            }
+        }
+        return None;
+    }
+    let Some(command) = &f.command else {
+        at.report(
+            f.name.span().start,
+            &format!(
+                "family `{}` runs a program, so it needs `command = \"<program> {{train}} {{score}} {{output}}\"`",
+                f.name.get_ref()
+            ),
+        );
+        return None;
+    };
+    if let Err(msg) = program::parse_command(command.get_ref()) {
+        at.report(command.span().start, &msg);
+    }
+    let mut files: Vec<ModelFile> = Vec::new();
+    for path in f.files.iter().flatten() {
+        let name = path.get_ref();
+        if files.iter().any(|m| m.path == *name) {
+            at.report(
+                path.span().start,
+                &format!("`files` lists `{name}` twice; list each once"),
+            );
+            continue;
+        }
+        match std::fs::read(dir.join(name)) {
+            Ok(bytes) => files.push(ModelFile {
+                path: name.clone(),
+                sha256: hex_sha256(&bytes),
+            }),
+            Err(e) => at.report(
+                path.span().start,
+                &format!(
+                    "cannot read the model file `{name}` ({}): {e}; `files` are relative to the manifest's folder",
+                    dir.join(name).display()
+                ),
+            ),
+        }
+    }
+    let env = f
+        .env
+        .as_ref()
+        .map(|e| e.get_ref().clone())
+        .unwrap_or_default();
+    for name in env.keys() {
+        if name.is_empty() || name.contains(['=', '\0']) {
+            at.report(
+                f.env.as_ref().map_or(0, |e| e.span().start),
+                &format!(
+                    "`env` has the variable name `{name}`; names must be non-empty, without `=`"
+                ),
+            );
+        }
+    }
+    Some(ProgramSpec {
+        command: command.get_ref().clone(),
+        files,
+        env,
+    })
 }
 
 fn evaluation(at: &Locator, raw: Option<RawEvaluation>, seed: u64) -> Evaluation {

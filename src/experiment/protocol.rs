@@ -12,13 +12,12 @@ use crate::common::error::{Error, Result};
 use crate::common::rng::derive_seed;
 use crate::common::scores::Scores;
 use crate::data::folds;
-use crate::data::preprocess::Preprocessor;
 use crate::data::table::Table;
-use crate::learner::Learner;
+use crate::learner::Trainer;
 use crate::metrics::bootstrap::intervals;
 use crate::metrics::reliability::{reliability, ReliabilityBin};
 use crate::metrics::{Forecasts, Metric, MetricFn, MetricOptions};
-use ndarray::{Array2, Axis};
+use ndarray::Array2;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -74,7 +73,7 @@ pub struct MethodResult {
 /// scored; a calibration method that fails is recorded in its own result.
 pub fn run_cell(
     plan: &CellPlan<'_>,
-    learner: &dyn Learner,
+    trainer: &Trainer,
     methods: &[(String, Box<dyn Calibrator>)],
     metrics: &[&Metric],
     options: &MetricOptions,
@@ -116,12 +115,12 @@ pub fn run_cell(
         .into_par_iter()
         .map(|m| {
             let Some((fit_pos, val_pos)) = splits.get(m) else {
-                return fit_and_score(table, plan.train, plan.test, learner, k, plan.model_seed);
+                return trainer.fit_and_score(table, plan.train, plan.test, k, plan.model_seed);
             };
             let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
             let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
             let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
-            fit_and_score(table, &fit_rows, &val_rows, learner, k, seed)
+            trainer.fit_and_score(table, &fit_rows, &val_rows, k, seed)
         })
         .collect();
     let test = fits
@@ -280,50 +279,4 @@ pub fn measure_methods(
             },
         })
         .collect()
-}
-
-/// Preprocesses on `fit_rows`, trains, and scores `score_rows`.
-fn fit_and_score(
-    table: &Table,
-    fit_rows: &[usize],
-    score_rows: &[usize],
-    learner: &dyn Learner,
-    n_classes: usize,
-    seed: u64,
-) -> Result<Scores> {
-    let prep = Preprocessor::fit(table, fit_rows, learner.wants_standardised());
-    if prep.width() == 0 {
-        return Err(Error::Fit(
-            "every feature is constant on this training split; the dataset needs varying columns"
-                .into(),
-        ));
-    }
-    let x_fit = prep.transform(table, fit_rows);
-    let y_fit: Vec<usize> = fit_rows.iter().map(|&r| table.labels[r]).collect();
-    if y_fit.iter().all(|&c| c == y_fit[0]) {
-        return Err(Error::Fit(format!(
-            "the training split holds a single class (`{}`, {} rows); no family can learn from it",
-            table.classes[y_fit[0]],
-            y_fit.len()
-        )));
-    }
-    let model = learner.fit(x_fit.view(), &y_fit, n_classes, seed)?;
-    let scores = model.predict(prep.transform(table, score_rows).view());
-    let finite = scores.proba.iter().all(|p| p.is_finite())
-        && scores
-            .native
-            .iter()
-            .flatten()
-            .all(|s| !s.is_nan() && *s != f64::INFINITY);
-    let sums_to_one = scores
-        .proba
-        .sum_axis(Axis(1))
-        .iter()
-        .all(|s| (s - 1.0).abs() < 1e-6);
-    if !finite || !sums_to_one {
-        return Err(Error::Fit(
-            "the family produced non-finite or unnormalised probabilities; try stronger regularisation".into(),
-        ));
-    }
-    Ok(scores)
 }

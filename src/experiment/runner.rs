@@ -15,7 +15,7 @@ use crate::experiment::plan::{self, Cell};
 use crate::experiment::protocol::{run_cell, CellPlan, MethodResult};
 use crate::experiment::store::{CellRecord, Store};
 use crate::experiment::summary::{summarise, Summary};
-use crate::learner::{self, Learner};
+use crate::learner::{self, Trainer};
 use crate::metrics::{self, Metric, MetricOptions};
 use indicatif::{ProgressBar, ProgressStyle};
 use rayon::prelude::*;
@@ -80,7 +80,7 @@ struct Shared<'a> {
     tables: &'a [Table],
     outer: Vec<Vec<Vec<usize>>>,
     fingerprints: Vec<Vec<String>>,
-    learners: Vec<Box<dyn Learner>>,
+    trainers: Vec<Trainer>,
     methods: Vec<(String, Box<dyn Calibrator>)>,
     metrics: Vec<&'static Metric>,
     options: MetricOptions,
@@ -96,7 +96,7 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
         tables: &tables,
         outer: plan::outer_folds(exp, &tables),
         fingerprints: plan::fingerprints(exp, &tables),
-        learners: build_learners(exp)?,
+        trainers: build_trainers(exp)?,
         methods: build_methods(exp),
         metrics: exp
             .metrics
@@ -145,13 +145,13 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
     })
 }
 
-fn build_learners(exp: &Experiment) -> Result<Vec<Box<dyn Learner>>> {
+fn build_trainers(exp: &Experiment) -> Result<Vec<Trainer>> {
     exp.families
         .iter()
         .map(|f| {
-            learner::find(&f.kind)
-                .map(|family| (family.build)(&f.params))
-                .ok_or_else(|| Error::Manifest(format!("unknown family kind `{}`", f.kind)))
+            let family = learner::find(&f.kind)
+                .ok_or_else(|| Error::Manifest(format!("unknown family kind `{}`", f.kind)))?;
+            Trainer::build(family, &f.params, f.program.as_ref(), exp.source.dir())
         })
         .collect()
 }
@@ -235,9 +235,9 @@ fn compute(s: &Shared<'_>, c: &Cell, train: &[usize], test: &[usize]) -> Result<
             &["bootstrap", data, family, &repeat, &fold],
         ),
     };
-    let learner = s.learners[c.family].as_ref();
+    let trainer = &s.trainers[c.family];
     std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-        run_cell(&plan, learner, &s.methods, &s.metrics, &s.options)
+        run_cell(&plan, trainer, &s.methods, &s.metrics, &s.options)
     }))
     .unwrap_or_else(|panic| {
         let what = panic

@@ -114,6 +114,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
             name: opts.model.clone(),
             kind: "external".into(),
             params: Params::default(),
+            program: None,
         }],
         methods: calibrate::METHODS.iter().map(|m| m.name.to_string()).collect(),
         calibration: calibrate::Settings::default(),

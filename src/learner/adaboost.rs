@@ -20,6 +20,7 @@
 //! both, and after calibration the two agree.
 
 use super::tree::{grow, Binned, Growth, Rows, Tree};
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::{Error, Result};
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
@@ -47,12 +48,12 @@ pub const FAMILY: Family = Family {
             about: "raw probability convention: \"logistic\" (p = 1/(1+exp(-2F))) or \"vote_share\" (each class's share of the stump weights)",
         },
     ],
-    build: |p| {
+    build: Build::Learner(|p| {
         Box::new(Boosting {
             rounds: p.int("rounds") as usize,
             vote_share: p.choice("probability") == VOTE_SHARE,
         })
-    },
+    }),
     revision: 0,
 };
 

@@ -8,6 +8,7 @@
 //! and averaged in index order, so results do not depend on thread count.
 
 use super::tree::{grow, Binned, Growth, Rows, Tree};
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::Result;
 use crate::common::params::{ParamKind, ParamSpec, ParamValue, Params};
@@ -37,7 +38,7 @@ pub const TREE: Family = Family {
     kind: "decision_tree",
     about: "one classification tree (Gini); probabilities are leaf class frequencies",
     params: &[MAX_DEPTH, MIN_LEAF_5],
-    build: |p| Box::new(Ensemble::from_params(p, Kind::Single)),
+    build: Build::Learner(|p| Box::new(Ensemble::from_params(p, Kind::Single))),
     revision: 0,
 };
 
@@ -45,7 +46,7 @@ pub const RANDOM_FOREST: Family = Family {
     kind: "random_forest",
     about: "random forest: bootstrap rows, sqrt(features) per split, mean leaf frequencies",
     params: &[TREES, MAX_DEPTH, MIN_LEAF_1],
-    build: |p| Box::new(Ensemble::from_params(p, Kind::Forest)),
+    build: Build::Learner(|p| Box::new(Ensemble::from_params(p, Kind::Forest))),
     revision: 0,
 };
 
@@ -53,7 +54,7 @@ pub const BAGGED_TREES: Family = Family {
     kind: "bagged_trees",
     about: "bagged trees: bootstrap rows, every feature per split, mean leaf frequencies",
     params: &[TREES, MAX_DEPTH, MIN_LEAF_1],
-    build: |p| Box::new(Ensemble::from_params(p, Kind::Bagging)),
+    build: Build::Learner(|p| Box::new(Ensemble::from_params(p, Kind::Bagging))),
     revision: 0,
 };
 

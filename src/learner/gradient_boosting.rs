@@ -12,6 +12,7 @@
 //! the per-class scores (multiclass) are the native score.
 
 use super::tree::{descend, partition, Binned, Node, Rows};
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::Result;
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
@@ -62,7 +63,7 @@ pub const FAMILY: Family = Family {
             about: "L2 penalty on leaf values",
         },
     ],
-    build: |p| {
+    build: Build::Learner(|p| {
         Box::new(Boosting {
             rounds: p.int("rounds") as usize,
             learning_rate: p.float("learning_rate"),
@@ -70,7 +71,7 @@ pub const FAMILY: Family = Family {
             min_leaf_rows: p.int("min_leaf_rows") as usize,
             l2: p.float("l2"),
         })
-    },
+    }),
     revision: 0,
 };
 

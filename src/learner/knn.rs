@@ -8,6 +8,7 @@
 //! the neighbours, and the probabilities, are deterministic. No native score:
 //! calibrators read the fractions.
 
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::{Error, Result};
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
@@ -27,11 +28,11 @@ pub const FAMILY: Family = Family {
         default: ParamValue::Int(25),
         about: "neighbours per query",
     }],
-    build: |p| {
+    build: Build::Learner(|p| {
         Box::new(Knn {
             k: p.int("k") as usize,
         })
-    },
+    }),
     revision: 0,
 };
 

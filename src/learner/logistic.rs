@@ -12,6 +12,7 @@
 //! sorted class values; we place them by class explicitly rather than
 //! assume.
 
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::{Error, Result};
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
@@ -40,12 +41,12 @@ pub const FAMILY: Family = Family {
             about: "iteration limit (Newton's method for binary tasks, L-BFGS for multinomial)",
         },
     ],
-    build: |p| {
+    build: Build::Learner(|p| {
         Box::new(Logistic {
             l2: p.float("l2"),
             max_steps: p.int("max_steps") as u64,
         })
-    },
+    }),
     revision: 0,
 };
 

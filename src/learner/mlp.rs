@@ -8,6 +8,7 @@
 //! output layer's logits are the native score (for binary tasks the
 //! difference of the two logits, the log-odds).
 
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::{Error, Result};
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
@@ -78,7 +79,7 @@ pub const FAMILY: Family = Family {
             about: "smallest fall in validation log loss that counts as better (scikit-learn's default tolerance)",
         },
     ],
-    build: |p| {
+    build: Build::Learner(|p| {
         Box::new(Mlp {
             hidden: p.int("hidden") as usize,
             hidden2: p.int("hidden2") as usize,
@@ -89,7 +90,7 @@ pub const FAMILY: Family = Family {
             patience: p.int("patience") as usize,
             stop_tolerance: p.float("stop_tolerance"),
         })
-    },
+    }),
     // 1: our own blocked matrix product and Adam's folded step size.
     revision: 1,
 };

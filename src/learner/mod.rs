@@ -15,13 +15,18 @@ mod knn;
 mod logistic;
 mod mlp;
 mod naive_bayes;
+pub mod program;
 mod svm;
 mod tree;
 
-use crate::common::error::Result;
+use crate::common::error::{Error, Result};
 use crate::common::params::{ParamSpec, Params};
 use crate::common::scores::Scores;
-use ndarray::ArrayView2;
+use crate::data::preprocess::Preprocessor;
+use crate::data::table::Table;
+use ndarray::{ArrayView2, Axis};
+use program::{Fit, Program};
+use std::path::Path;
 
 /// A family with its parameters set, ready to be trained on any split.
 pub trait Learner: Send + Sync {
@@ -56,12 +61,130 @@ pub struct Family {
     pub about: &'static str,
     /// Every parameter the family accepts.
     pub params: &'static [ParamSpec],
-    /// Builds a learner; the parameters have been checked against `params`.
-    pub build: fn(&Params) -> Box<dyn Learner>,
+    /// How a cell gets its model.
+    pub build: Build,
     /// Raised whenever a change to the algorithm changes its results within
     /// one candor version, so that a resumed run does not reuse cells the
     /// earlier algorithm computed (it is part of every cell's fingerprint).
     pub revision: u32,
+}
+
+impl Family {
+    /// candor's own learner with these parameters; `None` for the family
+    /// that runs an outside program, which needs its command as well (see
+    /// [`Trainer::build`]).
+    pub fn learner(&self, params: &Params) -> Option<Box<dyn Learner>> {
+        match self.build {
+            Build::Learner(build) => Some(build(params)),
+            Build::Program => None,
+        }
+    }
+}
+
+/// candor's own families: those that train in-process on the encoded
+/// matrix, which benchmarks and property tests range over.
+pub fn own_families() -> impl Iterator<Item = &'static Family> {
+    FAMILIES
+        .iter()
+        .copied()
+        .filter(|f| matches!(f.build, Build::Learner(_)))
+}
+
+/// How a family's entry becomes something the protocol can train.
+pub enum Build {
+    /// One of candor's own learners, built from checked parameters.
+    Learner(fn(&Params) -> Box<dyn Learner>),
+    /// An outside program, described by the family's `command` keys.
+    Program,
+}
+
+/// What the protocol trains in a cell: one of candor's learners on the
+/// encoded matrix, or an outside program on files.
+pub enum Trainer {
+    Learner(Box<dyn Learner>),
+    Program(Program),
+}
+
+impl Trainer {
+    /// Builds a family's trainer from its checked parameters; `program` is
+    /// the family's command, if it runs one, and `dir` the folder its
+    /// relative paths are resolved against.
+    pub fn build(
+        family: &Family,
+        params: &Params,
+        program: Option<&program::ProgramSpec>,
+        dir: &Path,
+    ) -> Result<Trainer> {
+        match (&family.build, program) {
+            (Build::Learner(build), _) => Ok(Trainer::Learner(build(params))),
+            (Build::Program, Some(spec)) => Ok(Trainer::Program(Program::new(spec, params, dir)?)),
+            (Build::Program, None) => Err(Error::Manifest(format!(
+                "family kind `{}` needs `command = \"...\"`",
+                family.kind
+            ))),
+        }
+    }
+
+    /// Trains on `fit_rows` of `table` and scores `score_rows`, the one step
+    /// the cross-fitting protocol repeats for every inner fold and the final
+    /// fit. Preprocessing is fitted on `fit_rows` only. Whatever trains, the
+    /// scores come back as finite probabilities whose rows sum to 1.
+    pub fn fit_and_score(
+        &self,
+        table: &Table,
+        fit_rows: &[usize],
+        score_rows: &[usize],
+        n_classes: usize,
+        seed: u64,
+    ) -> Result<Scores> {
+        let y_fit: Vec<usize> = fit_rows.iter().map(|&r| table.labels[r]).collect();
+        if y_fit.iter().all(|&c| c == y_fit[0]) {
+            return Err(Error::Fit(format!(
+                "the training split holds a single class (`{}`, {} rows); no family can learn from it",
+                table.classes[y_fit[0]],
+                y_fit.len()
+            )));
+        }
+        let learner = match self {
+            Trainer::Program(program) => {
+                return program.fit_and_score(&Fit {
+                    table,
+                    train: fit_rows,
+                    score: score_rows,
+                    n_classes,
+                    seed,
+                })
+            }
+            Trainer::Learner(learner) => learner,
+        };
+        let prep = Preprocessor::fit(table, fit_rows, learner.wants_standardised());
+        if prep.width() == 0 {
+            return Err(Error::Fit(
+                "every feature is constant on this training split; the dataset needs varying columns"
+                    .into(),
+            ));
+        }
+        let x_fit = prep.transform(table, fit_rows);
+        let model = learner.fit(x_fit.view(), &y_fit, n_classes, seed)?;
+        let scores = model.predict(prep.transform(table, score_rows).view());
+        let finite = scores.proba.iter().all(|p| p.is_finite())
+            && scores
+                .native
+                .iter()
+                .flatten()
+                .all(|s| !s.is_nan() && *s != f64::INFINITY);
+        let sums_to_one = scores
+            .proba
+            .sum_axis(Axis(1))
+            .iter()
+            .all(|s| (s - 1.0).abs() < 1e-6);
+        if !finite || !sums_to_one {
+            return Err(Error::Fit(
+                "the family produced non-finite or unnormalised probabilities; try stronger regularisation".into(),
+            ));
+        }
+        Ok(scores)
+    }
 }
 
 /// Every family candor knows, in the order `candor list families` lists them.
@@ -76,6 +199,7 @@ pub const FAMILIES: &[&Family] = &[
     &knn::FAMILY,
     &svm::FAMILY,
     &mlp::FAMILY,
+    &program::FAMILY,
 ];
 
 /// Family kinds that earlier versions spelled otherwise, with today's name,

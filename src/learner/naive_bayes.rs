@@ -5,6 +5,7 @@
 //! normalising and returns NaN when every likelihood underflows, which happens
 //! on wide datasets.
 
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::{Error, Result};
 use crate::common::params::{ParamKind, ParamSpec, ParamValue, Params};
@@ -22,11 +23,11 @@ pub const FAMILY: Family = Family {
         default: ParamValue::Float(1e-9),
         about: "fraction of the largest feature variance added to every variance",
     }],
-    build: |p: &Params| {
+    build: Build::Learner(|p: &Params| {
         Box::new(NaiveBayesLearner {
             variance_floor: p.float("variance_floor"),
         })
-    },
+    }),
     revision: 0,
 };
 

@@ -21,6 +21,7 @@
 //! calibrators; multiclass tasks give none (one-vs-rest margins are not
 //! logits), so calibrators read the rescaled margins.
 
+use super::Build;
 use super::{Family, Learner, Model};
 use crate::common::error::Result;
 use crate::common::params::{ParamKind, ParamSpec, ParamValue};
@@ -59,13 +60,13 @@ pub const FAMILY: Family = Family {
             about: "stop when the gradient's norm falls below this fraction of its norm at zero",
         },
     ],
-    build: |p| {
+    build: Build::Learner(|p| {
         Box::new(Svm {
             c: p.float("c"),
             max_steps: p.int("max_steps") as usize,
             stop_tolerance: p.float("stop_tolerance"),
         })
-    },
+    }),
     revision: 0,
 };
 

@@ -292,6 +292,7 @@ mod tests {
             name: name.into(),
             kind: kind.into(),
             params: Params::default(),
+            program: None,
         };
         let families = [family("lr", "logistic"), family("ada", "boosted_stumps")];
         let info = serde_json::json!({"settings": {"families": [
