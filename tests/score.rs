@@ -317,3 +317,171 @@ fn multiclass_columns_map_by_name_and_bad_rows_are_listed() {
         );
     }
 }
+
+/// Writes the demo's predictions as `f(logit(p))` under column `score`.
+fn rescaled(dir: &Path, name: &str, f: impl Fn(f64) -> f64) {
+    let text = std::fs::read_to_string(dir.join("deliveries.csv")).unwrap();
+    let mut out = String::from("late,region,score\n");
+    for line in text.lines().skip(1) {
+        let v: Vec<&str> = line.split(',').collect();
+        let p: f64 = v[2].parse().unwrap();
+        out.push_str(&format!("{},{},{}\n", v[0], v[1], f((p / (1.0 - p)).ln())));
+    }
+    std::fs::write(dir.join(name), out).unwrap();
+}
+
+/// The rows of a summary by (dataset without its file name, method), with
+/// every metric column as a number (NaN for an empty field).
+fn summary_rows(dir: &Path) -> Vec<(String, String, Vec<f64>)> {
+    let text = std::fs::read_to_string(dir.join("summary.csv")).unwrap();
+    let mut r = csv::Reader::from_reader(text.as_bytes());
+    let h = r.headers().unwrap().clone();
+    let last = h.iter().position(|c| c == "strategy").unwrap();
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            let segment = rec[0].split_once(' ').map_or("", |(_, s)| s).to_string();
+            let values = (3..last)
+                .map(|i| rec[i].parse().unwrap_or(f64::NAN))
+                .collect();
+            (segment, rec[2].to_string(), values)
+        })
+        .collect()
+}
+
+#[test]
+fn log_odds_score_like_the_probabilities_they_stand_for() {
+    // The same forecasts given as p and as ln(p / (1 - p)): every metric of
+    // every method, raw row included, agrees (the logistic function and its
+    // inverse, round-tripped in floating point).
+    let tmp = tempfile::tempdir().unwrap();
+    ok(candor(tmp.path()).args(["demo", "--rows", "3000"]));
+    rescaled(tmp.path(), "logodds.csv", |z| z);
+    score_demo(tmp.path(), &["--out", "p"]);
+    let mut args = vec!["score", "logodds.csv", "-t", "late", "-g", "region"];
+    args.extend(["--bootstrap", "0", "--scores", "log-odds", "--out", "z"]);
+    ok(candor(tmp.path()).args(&args));
+    let (p, z) = (
+        summary_rows(&tmp.path().join("p")),
+        summary_rows(&tmp.path().join("z")),
+    );
+    assert_eq!(p.len(), z.len());
+    for ((sp, mp, vp), (sz, mz, vz)) in p.iter().zip(&z) {
+        assert_eq!((sp, mp), (sz, mz));
+        for (a, b) in vp.iter().zip(vz) {
+            assert!(
+                (a - b).abs() <= 1e-7 * (1.0 + a.abs()) || (a.is_nan() && b.is_nan()),
+                "{sp} {mp}: {a} vs {b}"
+            );
+        }
+    }
+}
+
+#[test]
+fn margins_calibrate_on_the_native_scale_and_their_raw_row_is_not_applicable() {
+    // Margins 3·logit(p) + 1 carry the same ranking as p but no probability
+    // meaning. Platt scaling's sigmoid has its own slope and offset, so its
+    // fit on the margin is the fit on logit(p) (Platt 1999; up to the
+    // solver's tolerance); AUC, a rank statistic, is unchanged; the raw
+    // row's probability metrics are blank, with the reason.
+    let tmp = tempfile::tempdir().unwrap();
+    ok(candor(tmp.path()).args(["demo", "--rows", "3000"]));
+    rescaled(tmp.path(), "margin.csv", |z| 3.0 * z + 1.0);
+    score_demo(tmp.path(), &["--out", "p"]);
+    let mut args = vec!["score", "margin.csv", "-t", "late", "-g", "region"];
+    args.extend(["--bootstrap", "0", "--scores", "margin", "--out", "m"]);
+    args.extend(["--fit", "platt", "--save", "platt.json"]);
+    let out = ok(candor(tmp.path()).args(&args));
+    let stdout = String::from_utf8(out.stdout).unwrap();
+    assert!(stdout.contains("n/a"), "{stdout}");
+    let header: Vec<String> = {
+        let text = std::fs::read_to_string(tmp.path().join("m/summary.csv")).unwrap();
+        text.lines()
+            .next()
+            .unwrap()
+            .split(',')
+            .map(String::from)
+            .collect()
+    };
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap() - 3;
+    let (p, m) = (
+        summary_rows(&tmp.path().join("p")),
+        summary_rows(&tmp.path().join("m")),
+    );
+    for ((_, method, vp), (_, _, vm)) in p.iter().zip(&m) {
+        assert!((vp[col("auc")] - vm[col("auc")]).abs() < 1e-12 || method != "none");
+        if method == "none" {
+            assert!(vm[col("ece")].is_nan() && vm[col("brier")].is_nan());
+        }
+        if method == "platt" {
+            assert!((vp[col("brier")] - vm[col("brier")]).abs() < 1e-6);
+        }
+    }
+    let summary = std::fs::read_to_string(tmp.path().join("m/summary.csv")).unwrap();
+    assert!(summary.contains("not applicable: margins are not probabilities"));
+    let diag = std::fs::read_to_string(tmp.path().join("m/report/diagnosis.md")).unwrap();
+    assert!(diag.contains("not applicable"), "{diag}");
+
+    // The saved map records the scale, reads the margin itself, and
+    // refuses predictions read as probabilities.
+    let map: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(tmp.path().join("platt.json")).unwrap())
+            .unwrap();
+    assert_eq!(map["scores"], "margin");
+    let applied = ok(candor(tmp.path()).args([
+        "apply",
+        "platt.json",
+        "margin.csv",
+        "-t",
+        "late",
+        "-g",
+        "region",
+        "--scores",
+        "margin",
+    ]));
+    let text = String::from_utf8(applied.stdout).unwrap();
+    let (a, b) = (
+        map["maps"][0]["a"].as_f64().unwrap(),
+        map["maps"][0]["b"].as_f64().unwrap(),
+    );
+    for line in text.lines().skip(1).take(200) {
+        let v: Vec<&str> = line.split(',').collect();
+        let s: f64 = v[2].parse().unwrap();
+        let got: f64 = v[4].parse().unwrap();
+        assert!((got - 1.0 / (1.0 + (a * s + b).exp())).abs() < 1e-12);
+    }
+    let wrong = candor(tmp.path())
+        .args(["apply", "platt.json", "margin.csv", "-t", "late"])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&wrong.stderr);
+    assert!(!wrong.status.success());
+    assert!(err.contains("pass --scores margin"), "{err}");
+}
+
+#[test]
+fn a_saved_isotonic_map_keeps_only_its_knots() {
+    // 5,000 forecasts give thousands of distinct scores but a few dozen
+    // fitted levels; the interpolated map needs only the ends of each level.
+    let tmp = tempfile::tempdir().unwrap();
+    ok(candor(tmp.path()).args(["demo"]));
+    score_demo(tmp.path(), &["--fit", "isotonic", "--save", "iso.json"]);
+    let map: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(tmp.path().join("iso.json")).unwrap())
+            .unwrap();
+    let y: Vec<f64> = map["maps"][0]["y"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect();
+    let mut levels = y.clone();
+    levels.dedup();
+    assert!(
+        y.len() <= 2 * levels.len(),
+        "{} points, {} levels",
+        y.len(),
+        levels.len()
+    );
+    assert!(y.len() < 200, "{}", y.len());
+}

@@ -97,6 +97,12 @@ pub struct CalibrationFile {
     pub maps: Vec<ClassMap>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub temperature: Option<f64>,
+    /// What the predictions the map was fitted on held, when not
+    /// probabilities: `log-odds` or `margin`. The map then reads that
+    /// score itself where `reads` is `logit`, and its sigmoid (softmax for
+    /// several classes) where `reads` is `probability`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub scores: Option<String>,
 }
 
 pub const FORMAT: &str = "candor-calibration-map";
@@ -113,6 +119,7 @@ impl CalibrationFile {
             reads: None,
             maps: Vec::new(),
             temperature: None,
+            scores: None,
         };
         match e {
             Exported::Identity => {}

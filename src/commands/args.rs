@@ -8,7 +8,7 @@
 
 use crate::common::error::{Error, Result};
 use crate::data::csv::{CsvFormat, Spelling};
-use crate::data::predictions::Layout;
+use crate::data::predictions::{Layout, ScoreScale};
 
 /// Where the target is and how the CSV is written.
 #[derive(Debug, Clone, clap::Args)]
@@ -72,6 +72,19 @@ pub struct LayoutArgs {
     /// Largest allowed distance of a row's probability sum from 1.
     #[arg(long, default_value_t = 1e-3)]
     pub tolerance: f64,
+    /// What the columns hold: `probability`, `log-odds` (logits for
+    /// several columns) or `margin` (unbounded scores, such as an SVM's,
+    /// with no probability meaning). Calibrators use log-odds and margins
+    /// as the native score.
+    #[arg(long, default_value = "probability", value_name = "KIND", value_parser = score_scale)]
+    pub scores: ScoreScale,
+}
+
+fn score_scale(name: &str) -> std::result::Result<ScoreScale, String> {
+    ScoreScale::from_name(name).ok_or_else(|| {
+        let names: Vec<&str> = ScoreScale::ALL.iter().map(|s| s.name()).collect();
+        format!("choose one of: {}", names.join(", "))
+    })
 }
 
 impl LayoutArgs {
@@ -83,6 +96,7 @@ impl LayoutArgs {
             positive: self.positive,
             columns: self.columns,
             tolerance: self.tolerance,
+            scores: self.scores,
         }
     }
 }

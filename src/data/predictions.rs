@@ -9,9 +9,16 @@
 //! after a prefix every column shares (such as `p_`). Rows with a value
 //! outside [0, 1], or whose columns do not sum to 1 within the tolerance,
 //! are errors listed by line.
+//!
+//! With `--scores log-odds` or `--scores margin` the columns hold scores
+//! instead: a binary task's one column is the positive class's log-odds or
+//! margin, several columns are per-class logits or margins. Calibrators get
+//! these scores as the native score, exactly as a built-in family's; the
+//! probabilities are their sigmoid (softmax for several columns), which is
+//! the forecast itself for log-odds and only a monotone squash for margins.
 
 use crate::common::error::{Error, Result};
-use crate::common::scores::Scores;
+use crate::common::scores::{binary_from_log_odds, softmax_rows, Scores};
 use ndarray::Array2;
 use std::path::Path;
 
@@ -27,6 +34,45 @@ pub struct Layout {
     pub columns: Option<Vec<String>>,
     /// Largest allowed |row sum - 1| for several probability columns.
     pub tolerance: f64,
+    /// What the columns hold.
+    pub scores: ScoreScale,
+}
+
+/// What a predictions file's columns hold.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ScoreScale {
+    /// Probabilities in [0, 1].
+    #[default]
+    Probability,
+    /// Log-odds (binary) or logits (several columns): a probability on
+    /// another scale.
+    LogOdds,
+    /// Unbounded scores without a probability meaning, such as an SVM's
+    /// margin or a ranking score.
+    Margin,
+}
+
+impl ScoreScale {
+    /// Every scale, in the order help texts list them.
+    pub const ALL: [ScoreScale; 3] = [
+        ScoreScale::Probability,
+        ScoreScale::LogOdds,
+        ScoreScale::Margin,
+    ];
+
+    /// The scale a name stands for.
+    pub fn from_name(name: &str) -> Option<ScoreScale> {
+        Self::ALL.into_iter().find(|s| s.name() == name)
+    }
+
+    /// The name used on the command line and in saved maps.
+    pub fn name(self) -> &'static str {
+        match self {
+            ScoreScale::Probability => "probability",
+            ScoreScale::LogOdds => "log-odds",
+            ScoreScale::Margin => "margin",
+        }
+    }
 }
 
 /// Predictions read and checked.
@@ -38,6 +84,11 @@ pub struct Predictions {
     pub labels: Vec<usize>,
     /// Probabilities, one column per class, rows summing to 1.
     pub proba: Array2<f64>,
+    /// The scores as given, when the columns hold log-odds or margins: one
+    /// column (the positive class's) for a binary task, else one per class.
+    pub native: Option<Array2<f64>>,
+    /// What the columns held.
+    pub scale: ScoreScale,
     /// Group value per row, with a group column.
     pub groups: Option<Vec<String>>,
     /// The header and the raw rows, for writing them back out.
@@ -52,10 +103,13 @@ impl Predictions {
     /// The scores calibrators see: the probabilities, and as the native
     /// score their log-odds (binary) or logarithms (multiclass), so that
     /// Platt scaling and temperature scaling work on the logit scale.
+    /// Given log-odds or margins are passed on unchanged.
     pub fn scores(&self, rows: &[usize]) -> Scores {
         let k = self.proba.ncols();
         let proba = Array2::from_shape_fn((rows.len(), k), |(i, j)| self.proba[[rows[i], j]]);
-        let native = if k == 2 {
+        let native = if let Some(given) = &self.native {
+            given.select(ndarray::Axis(0), rows)
+        } else if k == 2 {
             Array2::from_shape_fn((rows.len(), 1), |(i, _)| {
                 let p = proba[[i, 1]].clamp(CLIP, 1.0 - CLIP);
                 (p / (1.0 - p)).ln()
@@ -161,6 +215,7 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
     } else {
         map_columns(&file, &names, &classes)?
     };
+    let given_scores = layout.scores != ScoreScale::Probability;
     let mut proba = Array2::zeros((rows.len(), k));
     let mut bad_value = Vec::new();
     let mut bad_values = 0;
@@ -170,7 +225,8 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
         let mut sum = 0.0;
         for (&c, &class) in prob_cols.iter().zip(&column_class) {
             match row[c].parse::<f64>() {
-                Ok(p) if p.is_finite() && (0.0..=1.0).contains(&p) => {
+                Ok(z) if given_scores && z.is_finite() => proba[[i, class]] = z,
+                Ok(p) if !given_scores && p.is_finite() && (0.0..=1.0).contains(&p) => {
                     proba[[i, class]] = p;
                     sum += p;
                 }
@@ -183,6 +239,9 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
                     first_bad.get_or_insert((header[c].clone(), row[c].clone()));
                 }
             }
+        }
+        if given_scores {
+            continue;
         }
         if prob_cols.len() == 1 {
             proba[[i, 0]] = 1.0 - proba[[i, 1]];
@@ -203,6 +262,15 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
         };
         format!("{}{more}", shown.join(", "))
     };
+    if !bad_value.is_empty() && given_scores {
+        let (column, value) = first_bad.unwrap_or_default();
+        return Err(Error::Data(format!(
+            "{file}: --scores {} needs finite numbers, but column `{column}` holds `{value}` on line {} ({bad_values} bad values on lines {}); name the score columns with --columns, or a segment column with --group",
+            layout.scores.name(),
+            bad_value[0],
+            lines(&bad_value)
+        )));
+    }
     if !bad_value.is_empty() {
         let (column, value) = first_bad.unwrap_or_default();
         return Err(Error::Data(format!(
@@ -232,14 +300,42 @@ pub fn read(path: &Path, layout: &Layout, classes: Option<&[String]>) -> Result<
         })
         .collect::<Result<Vec<usize>>>()?;
     let groups = group_col.map(|g| rows.iter().map(|r| r[g].clone()).collect());
+    let (proba, native) = if given_scores {
+        from_scores(proba, prob_cols.len() == 1)
+    } else {
+        (proba, None)
+    };
     Ok(Predictions {
         classes,
         labels,
         proba,
+        native,
+        scale: layout.scores,
         groups,
         header,
         rows,
     })
+}
+
+/// Probabilities and native scores from given scores, held one column per
+/// class (`one_column`: only the positive class's column of a binary task
+/// was given): the sigmoid of a binary task's positive score, the softmax
+/// of several. A binary task's native score is one column, the positive
+/// class's score, or the difference of the two given ones.
+fn from_scores(z: Array2<f64>, one_column: bool) -> (Array2<f64>, Option<Array2<f64>>) {
+    if z.ncols() == 2 {
+        let positive: Vec<f64> = z
+            .rows()
+            .into_iter()
+            .map(|r| if one_column { r[1] } else { r[1] - r[0] })
+            .collect();
+        let proba = binary_from_log_odds(&positive);
+        let native = Array2::from_shape_vec((positive.len(), 1), positive)
+            .unwrap_or_else(|_| Array2::zeros((0, 1)));
+        (proba, Some(native))
+    } else {
+        (softmax_rows(&z), Some(z))
+    }
 }
 
 /// Class names from the labels: binary with one column orders (negative,
@@ -354,6 +450,7 @@ mod tests {
             positive: None,
             columns: None,
             tolerance: 1e-3,
+            scores: ScoreScale::Probability,
         };
         let err = read(&path, &layout, None)
             .expect_err("bad values")

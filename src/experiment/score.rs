@@ -15,10 +15,10 @@ use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::common::params::Params;
 use crate::data::folds;
-use crate::data::predictions::{self, Layout, Predictions};
+use crate::data::predictions::{self, Layout, Predictions, ScoreScale};
 use crate::data::source::{DataSource, DatasetSpec};
 use crate::experiment::manifest::{Evaluation, Experiment, FamilySpec, ManifestSource};
-use crate::experiment::protocol::{fit_methods, measure_methods};
+use crate::experiment::protocol::{fit_methods, measure_methods, MethodResult};
 use crate::experiment::store::{CellRecord, Store};
 use crate::export::{Csv, Exporter};
 use crate::metrics::{self, Forecasts, MetricOptions};
@@ -122,13 +122,17 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
         source: ManifestSource {
             path: path.to_path_buf(),
             text: format!(
-                "# candor score {}: {} folds, seed {}, {} bins, target column {:?}, group column {:?}\n",
+                "# candor score {}: {} folds, seed {}, {} bins, target column {:?}, group column {:?}{}\n",
                 path.display(),
                 opts.folds,
                 opts.seed,
                 opts.bins,
                 opts.layout.label.as_deref().unwrap_or(""),
-                opts.layout.group.as_deref().unwrap_or("")
+                opts.layout.group.as_deref().unwrap_or(""),
+                match opts.layout.scores {
+                    ScoreScale::Probability => String::new(),
+                    other => format!(", scores {}", other.name()),
+                }
             ),
             sha256: crate::common::checksum::hex_sha256(&std::fs::read(path).map_err(|e| Error::io(path, "read", &e))?),
         },
@@ -156,7 +160,7 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                 let of = pred.groups.as_ref().map_or(&[][..], |v| &v[..]);
                 test.iter().copied().filter(|&r| &of[r] == g).collect()
             };
-            let results = if rows.is_empty() {
+            let mut results = if rows.is_empty() {
                 Vec::new()
             } else {
                 measure_methods(
@@ -171,6 +175,12 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
                     ),
                 )
             };
+            if opts.layout.scores == ScoreScale::Margin {
+                results
+                    .iter_mut()
+                    .filter(|r| r.method == "none")
+                    .for_each(margins_are_not_forecasts);
+            }
             records.push(CellRecord {
                 dataset: dataset.clone(),
                 family: opts.model.clone(),
@@ -194,6 +204,28 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
         records,
     })
 }
+
+/// What a margin's `none` row can say: margins order the rows and their
+/// sign decides, so AUC and accuracy stand; a margin is no probability,
+/// so every calibration and probability metric of it is not applicable
+/// (the sigmoid the calibrators read would be judged instead).
+fn margins_are_not_forecasts(raw: &mut MethodResult) {
+    for (name, value) in raw.metrics.iter_mut() {
+        if !RANK_METRICS.contains(&name.as_str()) {
+            *value = None;
+        }
+    }
+    raw.intervals.clear();
+    raw.reliability.clear();
+    raw.strategy = MARGIN_NOTE.into();
+}
+
+/// The metrics of a margin that keep their meaning.
+const RANK_METRICS: [&str; 2] = ["auc", "accuracy"];
+
+/// The reason a margin's `none` row is blank, as tables show it.
+pub const MARGIN_NOTE: &str =
+    "not applicable: margins are not probabilities (only auc and accuracy are reported)";
 
 fn write(
     exp: &Experiment,
@@ -271,7 +303,8 @@ pub fn metrics_json(pred: &Predictions, bins: usize) -> serde_json::Value {
             .iter()
             .map(|m| {
                 let v = (m.compute)(&fc, &options);
-                (m.name.to_string(), v.is_finite().then_some(v))
+                let applies = pred.scale != ScoreScale::Margin || RANK_METRICS.contains(&m.name);
+                (m.name.to_string(), (applies && v.is_finite()).then_some(v))
             })
             .collect()
     };
@@ -315,7 +348,10 @@ pub fn save_fit(pred: &Predictions, method: &str, file: &Path) -> Result<()> {
             "--fit {method}: this method needs its calibration set to predict, so it cannot be saved as a map; choose platt, isotonic, histogram, beta or temperature"
         ))
     })?;
-    let doc = CalibrationFile::new(method, calibrator.strategy(k), &pred.classes, exported);
+    let mut doc = CalibrationFile::new(method, calibrator.strategy(k), &pred.classes, exported);
+    if pred.scale != ScoreScale::Probability {
+        doc.scores = Some(pred.scale.name().to_string());
+    }
     let mut text = serde_json::to_string_pretty(&doc)
         .map_err(|e| Error::Io(format!("cannot encode the map: {e}")))?;
     text.push('\n');
@@ -334,6 +370,14 @@ pub fn apply(map_path: &Path, predictions: &Path, layout: &Layout) -> Result<Str
         ))
     })?;
     let calibration = file.calibration(&map_path.display().to_string())?;
+    let fitted_on = file.scores.as_deref().unwrap_or("probability");
+    if fitted_on != layout.scores.name() {
+        return Err(Error::Data(format!(
+            "{}: the map was fitted on {fitted_on} scores, but these are read as {}; pass --scores {fitted_on}",
+            map_path.display(),
+            layout.scores.name()
+        )));
+    }
     let pred = predictions::read(predictions, layout, Some(&file.classes))?;
     let all: Vec<usize> = (0..pred.rows.len()).collect();
     let p = calibration.apply(&pred.scores(&all));

@@ -198,14 +198,17 @@ impl Summary {
             &columns,
         );
         for (d, f) in lines {
-            let values: Vec<f64> = methods
+            let found: Vec<Option<&Row>> = methods
                 .iter()
                 .map(|m| {
                     self.rows
                         .iter()
                         .find(|r| r.dataset == d && r.family == f && r.method == *m)
-                        .map_or(f64::NAN, |r| r.stats[mi].mean)
                 })
+                .collect();
+            let values: Vec<f64> = found
+                .iter()
+                .map(|r| r.map_or(f64::NAN, |r| r.stats[mi].mean))
                 .collect();
             let best = higher.and_then(|h| {
                 values
@@ -215,9 +218,14 @@ impl Summary {
                     .reduce(|a, b| if (h && b > a) || (!h && b < a) { b } else { a })
             });
             let mut row: Vec<Value> = vec![d.into(), f.into()];
-            row.extend(values.iter().map(|&v| {
+            row.extend(values.iter().zip(&found).map(|(&v, r)| {
                 Value::Text(if !v.is_finite() {
-                    "failed".to_string()
+                    // A row a method could not fill, or one the scores'
+                    // kind rules out (a margin is no probability).
+                    match r {
+                        Some(r) if r.strategy.starts_with("not applicable") => "n/a".to_string(),
+                        _ => "failed".to_string(),
+                    }
                 } else if Some(v) == best {
                     format!("{v:.4}*")
                 } else {

@@ -172,8 +172,19 @@ pub fn table(results: &Results) -> Table {
             let s = fold_values(&cells, "none", "calibration_slope");
             let a = fold_values(&cells, "none", "calibration_intercept");
             let g = fold_values(&cells, "none", "calibration_gap");
+            // Scored margins have no probability to diagnose.
+            let margins = cells.iter().any(|c| {
+                c.results
+                    .iter()
+                    .any(|m| m.method == "none" && m.strategy.starts_with("not applicable"))
+            });
             let found = diagnose(&s, &a, &g, test_over_train(&cells));
-            let label = found.label();
+            let label = if margins {
+                "not applicable: margins are not probabilities".to_string()
+            } else {
+                found_all.push(found);
+                found.label()
+            };
             let forecast = if results.classes(&d.name) > 2 {
                 "top label"
             } else {
@@ -188,7 +199,6 @@ pub fn table(results: &Results) -> Table {
                 mean(&g).into(),
                 label.as_str().into(),
             ]);
-            found_all.push(found);
         }
         overall.push(vec![
             Value::from("all datasets"),
@@ -197,7 +207,11 @@ pub fn table(results: &Results) -> Table {
             f64::NAN.into(),
             f64::NAN.into(),
             f64::NAN.into(),
-            summarise(&found_all).into(),
+            if found_all.is_empty() {
+                "not applicable".into()
+            } else {
+                summarise(&found_all).into()
+            },
         ]);
     }
     t.rows.extend(overall);
