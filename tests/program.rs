@@ -258,3 +258,30 @@ fn a_command_family_is_checked_when_the_manifest_is_read() {
         assert!(err.contains("m.toml:"), "{err}");
     }
 }
+
+#[test]
+#[ignore = "installs scikit-learn into a virtual environment and runs 60 Python fits (about 3 minutes); run with --ignored"]
+fn the_scikit_learn_example_runs_end_to_end_and_repeats_itself() {
+    // examples/own-model: scikit-learn's HistGradientBoostingClassifier as a
+    // command family next to candor's own families. Run twice, on one and
+    // on two threads: the program seeds itself from {seed}, so the results
+    // must be byte-identical.
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let out = tempfile::tempdir().unwrap();
+    for (threads, name) in [("1", "one"), ("2", "two")] {
+        let o = Command::new(root.join("scripts/own-model-example.sh"))
+            .env("OUT", out.path().join(name))
+            .args(["-j", threads, "-q"])
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", stderr(&o));
+    }
+    for file in ["records.jsonl", "summary.csv"] {
+        let a = std::fs::read(out.path().join("one").join(file)).unwrap();
+        let b = std::fs::read(out.path().join("two").join(file)).unwrap();
+        assert!(a == b, "{file} differs between -j 1 and -j 2");
+    }
+    let records = std::fs::read_to_string(out.path().join("one/records.jsonl")).unwrap();
+    assert!(records.contains("\"family\":\"sk_hist_gb\""));
+    assert!(!records.contains("\"error\""), "a cell failed");
+}
