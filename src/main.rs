@@ -23,6 +23,9 @@ enum Command {
     /// Train, calibrate and evaluate everything a manifest lists, then print
     /// calibration error before and after each method.
     Run(commands::run::RunArgs),
+    /// Assemble the results and report of a sharded run (`run --shard`),
+    /// once every shard is done; lists missing cells and their shards.
+    Merge(commands::merge::MergeArgs),
     /// Write the tables, diagnosis, ranking, figures and HTML report of a
     /// finished results folder into its `report/` folder.
     Report(commands::report::ReportArgs),
@@ -63,6 +66,7 @@ fn main() -> ExitCode {
         Command::Run(args) => {
             commands::run::execute(args, std::io::stderr().is_terminal(), &mut out)
         }
+        Command::Merge(args) => commands::merge::execute(args, &mut out),
         Command::Report(args) => commands::report::execute(args, &mut out),
         Command::Gate(args) => commands::gate::execute(args, &mut out),
         Command::Score(args) => commands::score::execute(args, &mut out),

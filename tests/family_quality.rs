@@ -158,6 +158,7 @@ name = "mlp"
             threads: 0,
             datasets_dir: Some(Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets")),
             progress: false,
+            shard: None,
         },
     )
     .unwrap();

@@ -45,6 +45,7 @@ fn options(out: PathBuf, threads: usize) -> RunOptions {
         threads,
         datasets_dir: Some(datasets()),
         progress: false,
+        shard: None,
     }
 }
 

@@ -13,6 +13,7 @@ pub mod data;
 pub mod demo;
 pub mod gate;
 pub mod list;
+pub mod merge;
 pub mod report;
 pub mod run;
 pub mod score;

@@ -5,6 +5,7 @@ use super::{Output, Status};
 use crate::common::error::Result;
 use crate::experiment::manifest;
 use crate::experiment::runner::{self, RunOptions};
+use crate::experiment::shard::{self, Shard};
 use crate::export::{Exporter, Text};
 use crate::report::{self, deciding_metric, ReportOptions};
 use std::fmt::Write as _;
@@ -37,6 +38,12 @@ pub struct RunArgs {
     /// Also write PNG copies of the report's figures.
     #[arg(long)]
     pub png: bool,
+    /// Compute only shard I of N (`2/3`) of the cells, into a results folder
+    /// the other shards share; `auto` reads the shard from a Slurm job array
+    /// or a Kubernetes Indexed Job (`auto/N` gives N there). Then `candor
+    /// merge` writes the results.
+    #[arg(long, value_name = "I/N")]
+    pub shard: Option<String>,
 }
 
 /// Runs the manifest. `progress` draws a progress bar on standard error
@@ -51,13 +58,89 @@ pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status
     let out_dir = args
         .out
         .unwrap_or_else(|| PathBuf::from("results").join(&exp.name));
+    let shard = args
+        .shard
+        .as_deref()
+        .map(|spec| Shard::parse(spec, |name| std::env::var(name).ok()))
+        .transpose()?;
     let options = RunOptions {
         out_dir: out_dir.clone(),
         threads: args.threads,
         datasets_dir: args.datasets,
         progress: progress && !args.quiet,
+        shard,
     };
     let done = runner::run(&exp, &options)?;
+    if let Some(status) = &done.shard {
+        return Ok(shard_done(status, &done, &out_dir, args.quiet, out));
+    }
+    conclude(
+        &exp,
+        &done,
+        &out_dir,
+        &Finish {
+            quiet: args.quiet,
+            metric: args.metric,
+            png: args.png,
+        },
+        out,
+    )
+}
+
+/// What the end of a run shows: how the report is drawn and what is
+/// printed.
+pub(super) struct Finish {
+    pub quiet: bool,
+    pub metric: Option<String>,
+    pub png: bool,
+}
+
+/// The shard's one-line account, its failures, and what to do next.
+fn shard_done(
+    status: &shard::Status,
+    done: &runner::RunReport,
+    out_dir: &std::path::Path,
+    quiet: bool,
+    out: &mut Output,
+) -> Status {
+    if !quiet {
+        let _ = writeln!(
+            out.text,
+            "shard {}: {} cells ({} computed, {} reused) in {:.1} s, estimated {:.1} s; when every shard is done: candor merge {}",
+            status.shard,
+            status.cells,
+            status.computed,
+            status.reused,
+            status.measured_seconds,
+            status.estimated_seconds,
+            out_dir.display()
+        );
+    }
+    for f in &done.failures {
+        out.note(format!("failed: {f}"));
+    }
+    if done.failures.is_empty() {
+        Status::Success
+    } else {
+        out.note(format!(
+            "error: {} cell(s) or method(s) of shard {} failed; their errors are in the cell records under {}/cells",
+            done.failures.len(),
+            status.shard,
+            out_dir.display()
+        ));
+        Status::CellsFailed
+    }
+}
+
+/// Notes, tables, the report and the failures of a finished run (or
+/// merge), and its status.
+pub(super) fn conclude(
+    exp: &crate::experiment::manifest::Experiment,
+    done: &runner::RunReport,
+    out_dir: &std::path::Path,
+    finish: &Finish,
+    out: &mut Output,
+) -> Result<Status> {
     for w in &done.warnings {
         out.note(format!("note: {w}"));
     }
@@ -68,7 +151,7 @@ pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status
             out_dir.display()
         ));
     }
-    if !args.quiet {
+    if !finish.quiet {
         // ECE and Brier when the manifest has them, else its first two.
         let mut shown: Vec<&str> = ["ece", "brier"]
             .into_iter()
@@ -92,13 +175,13 @@ pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status
         );
     }
     let html = report::generate(
-        &out_dir,
+        out_dir,
         &ReportOptions {
-            metric: args.metric,
-            png: args.png,
+            metric: finish.metric.clone(),
+            png: finish.png,
         },
     )?;
-    if !args.quiet {
+    if !finish.quiet {
         let _ = writeln!(out.text, "report: {}", html.display());
     }
     if done.failures.is_empty() {

@@ -12,10 +12,12 @@
 
 pub mod add;
 pub mod manifest;
+pub mod merge;
 pub mod outputs;
 pub mod plan;
 pub mod protocol;
 pub mod runner;
 pub mod score;
+pub mod shard;
 pub mod store;
 pub mod summary;

@@ -13,6 +13,7 @@ use crate::experiment::manifest::{check_class_counts, Experiment};
 use crate::experiment::outputs;
 use crate::experiment::plan::{self, Cell};
 use crate::experiment::protocol::{run_cell, CellPlan, MethodResult};
+use crate::experiment::shard::{self, Shard};
 use crate::experiment::store::{CellRecord, Store};
 use crate::experiment::summary::{summarise, Summary};
 use crate::learner::{self, Trainer};
@@ -32,6 +33,8 @@ pub struct RunOptions {
     pub datasets_dir: Option<PathBuf>,
     /// Show a progress bar on the terminal.
     pub progress: bool,
+    /// Compute only this shard's cells, for a merge to assemble later.
+    pub shard: Option<Shard>,
 }
 
 /// What a run did.
@@ -49,6 +52,8 @@ pub struct RunReport {
     /// How many (cell, method) results took a documented fallback; their
     /// warnings are in `records.jsonl`.
     pub fallbacks: usize,
+    /// For a shard, what it did; the result files then wait for the merge.
+    pub shard: Option<shard::Status>,
 }
 
 /// Loads and checks every dataset of an experiment before any training, so
@@ -86,9 +91,14 @@ struct Shared<'a> {
     options: MetricOptions,
 }
 
-/// Runs an experiment and writes its results folder.
+/// Runs an experiment and writes its results folder; with a shard, only
+/// that shard's cells, and a status for the merge instead of the result
+/// files.
 pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
-    let store = Store::open(&opts.out_dir)?;
+    let store = match opts.shard {
+        Some(s) => Store::open_shard(&opts.out_dir, s)?,
+        None => Store::open(&opts.out_dir)?,
+    };
     let tables = load_datasets(exp, opts.datasets_dir.as_deref())?;
     let shared = Shared {
         exp,
@@ -108,7 +118,21 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
             hl_groups: exp.evaluation.hl_groups,
         },
     };
-    let cells = plan::cells(exp);
+    let mut cells = plan::cells(exp);
+    let mut estimated = 0.0;
+    if let Some(s) = opts.shard {
+        let costs = shard_costs(exp, &tables, &cells);
+        let owner = shard::assign(&costs, s.count);
+        estimated = (0..cells.len())
+            .filter(|&i| owner[i] + 1 == s.index)
+            .map(|i| costs[i])
+            .sum();
+        cells = (0..cells.len())
+            .filter(|&i| owner[i] + 1 == s.index)
+            .map(|i| cells[i])
+            .collect();
+    }
+    let started = std::time::Instant::now();
     let bar = progress_bar(opts.progress, cells.len());
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(opts.threads)
@@ -134,7 +158,28 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
         records.push(record);
     }
     let summary = summarise(exp, &records);
-    outputs::write(exp, &store, &tables, &records, &summary)?;
+    let status = match opts.shard {
+        Some(s) => {
+            let status = shard::Status {
+                shard: s,
+                manifest: std::path::absolute(&exp.source.path)
+                    .unwrap_or_else(|_| exp.source.path.clone()),
+                manifest_sha256: exp.source.sha256.clone(),
+                cells: records.len(),
+                estimated_seconds: estimated,
+                measured_seconds: started.elapsed().as_secs_f64(),
+                computed,
+                reused: records.len() - computed,
+                failed: records.iter().filter(|r| r.error.is_some()).count(),
+            };
+            status.save(&store.dir)?;
+            Some(status)
+        }
+        None => {
+            outputs::write(exp, &store, &tables, &records, &summary)?;
+            None
+        }
+    };
     Ok(RunReport {
         summary,
         computed,
@@ -142,7 +187,16 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
         failures: failures(&records),
         fallbacks: fallbacks(&records),
         warnings: tables.iter().flat_map(|t| t.warnings.clone()).collect(),
+        shard: status,
     })
+}
+
+/// Every cell's estimated seconds, for dividing the cells into shards.
+pub fn shard_costs(exp: &Experiment, tables: &[Table], cells: &[Cell]) -> Vec<f64> {
+    cells
+        .iter()
+        .map(|c| shard::estimate(exp, &tables[c.dataset], c))
+        .collect()
 }
 
 fn build_trainers(exp: &Experiment) -> Result<Vec<Trainer>> {
@@ -250,7 +304,7 @@ fn compute(s: &Shared<'_>, c: &Cell, train: &[usize], test: &[usize]) -> Result<
 }
 
 /// One line per failed cell or method, naming where it failed.
-fn failures(records: &[CellRecord]) -> Vec<String> {
+pub(super) fn failures(records: &[CellRecord]) -> Vec<String> {
     let mut failures = Vec::new();
     for r in records {
         let at = format!(
@@ -270,7 +324,7 @@ fn failures(records: &[CellRecord]) -> Vec<String> {
 }
 
 /// How many (cell, method) results took a documented fallback.
-fn fallbacks(records: &[CellRecord]) -> usize {
+pub(super) fn fallbacks(records: &[CellRecord]) -> usize {
     records
         .iter()
         .flat_map(|r| &r.results)

@@ -10,8 +10,34 @@
 use crate::common::error::{Error, Result};
 use crate::common::files::write_atomic;
 use crate::experiment::protocol::MethodResult;
+use crate::experiment::shard::Shard;
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
+
+fn cannot_write(dir: &Path, e: std::io::Error) -> Error {
+    Error::Io(format!(
+        "{}: cannot write results there: {e}; choose another folder with --out",
+        dir.display()
+    ))
+}
+
+/// Creates the folder, checks that it can be written, and opens its lock.
+fn open_writable(dir: &Path) -> Result<std::fs::File> {
+    std::fs::create_dir_all(dir).map_err(|e| cannot_write(dir, e))?;
+    let probe = dir.join(format!(".write-probe.{}", std::process::id()));
+    std::fs::write(&probe, b"").map_err(|e| cannot_write(dir, e))?;
+    std::fs::remove_file(&probe).map_err(|e| cannot_write(dir, e))?;
+    lock_file(dir, ".candor.lock")
+}
+
+fn lock_file(dir: &Path, name: &str) -> Result<std::fs::File> {
+    std::fs::OpenOptions::new()
+        .create(true)
+        .truncate(false)
+        .write(true)
+        .open(dir.join(name))
+        .map_err(|e| cannot_write(dir, e))
+}
 
 /// Everything known about one finished cell.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -38,45 +64,66 @@ pub struct CellRecord {
 pub struct Store {
     pub dir: PathBuf,
     /// Held for the life of the run so a second run on the same folder is
-    /// refused instead of interleaving its writes. An OS file lock, so a
-    /// killed run leaves nothing stale behind and a rerun can resume.
-    _lock: std::fs::File,
+    /// refused instead of interleaving its writes. OS file locks, so a
+    /// killed run leaves nothing stale behind and a rerun can resume: the
+    /// folder's lock, exclusive for a whole run or a merge and shared by
+    /// shards, and a shard's own lock, so each shard runs once at a time.
+    _locks: Vec<std::fs::File>,
 }
 
 impl Store {
-    /// Opens (creating if needed) a results folder and checks that it can be
-    /// written, before any work is done.
+    /// Opens (creating if needed) a results folder for a whole run or a
+    /// merge, and checks that it can be written, before any work is done.
     pub fn open(dir: &Path) -> Result<Store> {
-        let fail = |e: std::io::Error| {
-            Error::Io(format!(
-                "{}: cannot write results there: {e}; choose another folder with --out",
-                dir.display()
-            ))
-        };
-        std::fs::create_dir_all(dir).map_err(fail)?;
-        let probe = dir.join(format!(".write-probe.{}", std::process::id()));
-        std::fs::write(&probe, b"").map_err(fail)?;
-        std::fs::remove_file(&probe).map_err(fail)?;
-        let lock_path = dir.join(".candor.lock");
-        let lock = std::fs::OpenOptions::new()
-            .create(true)
-            .truncate(false)
-            .write(true)
-            .open(&lock_path)
-            .map_err(fail)?;
-        match lock.try_lock() {
+        let folder = open_writable(dir)?;
+        match folder.try_lock() {
             Ok(()) => {}
             Err(std::fs::TryLockError::WouldBlock) => {
                 return Err(Error::Io(format!(
-                    "{}: another candor run is writing to this results folder; wait for it to finish, or choose another folder with --out",
+                    "{}: another candor run, shard or merge is writing to this results folder; wait for it to finish, or choose another folder with --out",
                     dir.display()
                 )))
             }
-            Err(std::fs::TryLockError::Error(e)) => return Err(fail(e)),
+            Err(std::fs::TryLockError::Error(e)) => return Err(cannot_write(dir, e)),
         }
         Ok(Store {
             dir: dir.to_path_buf(),
-            _lock: lock,
+            _locks: vec![folder],
+        })
+    }
+
+    /// Opens a results folder for one shard: other shards may write their
+    /// own cells beside it, but not the same shard twice, nor a whole run
+    /// or a merge.
+    pub fn open_shard(dir: &Path, shard: Shard) -> Result<Store> {
+        let folder = open_writable(dir)?;
+        match folder.try_lock_shared() {
+            Ok(()) => {}
+            Err(std::fs::TryLockError::WouldBlock) => {
+                return Err(Error::Io(format!(
+                    "{}: a whole candor run or a merge is using this results folder; wait for it to finish before starting shards",
+                    dir.display()
+                )))
+            }
+            Err(std::fs::TryLockError::Error(e)) => return Err(cannot_write(dir, e)),
+        }
+        let own = lock_file(
+            dir,
+            &format!(".candor.shard-{}-of-{}.lock", shard.index, shard.count),
+        )?;
+        match own.try_lock() {
+            Ok(()) => {}
+            Err(std::fs::TryLockError::WouldBlock) => {
+                return Err(Error::Io(format!(
+                    "{}: shard {shard} is already running on this results folder; each shard runs once at a time",
+                    dir.display()
+                )))
+            }
+            Err(std::fs::TryLockError::Error(e)) => return Err(cannot_write(dir, e)),
+        }
+        Ok(Store {
+            dir: dir.to_path_buf(),
+            _locks: vec![folder, own],
         })
     }
 
@@ -95,6 +142,14 @@ impl Store {
         let text = std::fs::read_to_string(path).ok()?;
         let record: CellRecord = serde_json::from_str(&text).ok()?;
         (record.fingerprint == fingerprint && record.error.is_none()).then_some(record)
+    }
+
+    /// A stored record with this fingerprint, failed or not: what a merge
+    /// takes, since a whole run writes its failed cells too.
+    pub fn stored(&self, path: &Path, fingerprint: &str) -> Option<CellRecord> {
+        let text = std::fs::read_to_string(path).ok()?;
+        let record: CellRecord = serde_json::from_str(&text).ok()?;
+        (record.fingerprint == fingerprint).then_some(record)
     }
 
     /// Stores a finished cell.

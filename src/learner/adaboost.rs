@@ -55,6 +55,7 @@ pub const FAMILY: Family = Family {
         })
     }),
     revision: 0,
+    cost: super::Cost::Linear(5.6e-7),
 };
 
 /// The two raw probability conventions.

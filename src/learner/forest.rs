@@ -40,6 +40,7 @@ pub const TREE: Family = Family {
     params: &[MAX_DEPTH, MIN_LEAF_5],
     build: Build::Learner(|p| Box::new(Ensemble::from_params(p, Kind::Single))),
     revision: 0,
+    cost: super::Cost::Linear(8.5e-8),
 };
 
 pub const RANDOM_FOREST: Family = Family {
@@ -48,6 +49,7 @@ pub const RANDOM_FOREST: Family = Family {
     params: &[TREES, MAX_DEPTH, MIN_LEAF_1],
     build: Build::Learner(|p| Box::new(Ensemble::from_params(p, Kind::Forest))),
     revision: 0,
+    cost: super::Cost::Linear(1.3e-6),
 };
 
 pub const BAGGED_TREES: Family = Family {
@@ -56,6 +58,7 @@ pub const BAGGED_TREES: Family = Family {
     params: &[TREES, MAX_DEPTH, MIN_LEAF_1],
     build: Build::Learner(|p| Box::new(Ensemble::from_params(p, Kind::Bagging))),
     revision: 0,
+    cost: super::Cost::Linear(2.9e-6),
 };
 
 const MIN_LEAF_5: ParamSpec = ParamSpec {

@@ -73,6 +73,7 @@ pub const FAMILY: Family = Family {
         })
     }),
     revision: 0,
+    cost: super::Cost::Linear(5.3e-7),
 };
 
 struct Boosting {

@@ -34,6 +34,7 @@ pub const FAMILY: Family = Family {
         })
     }),
     revision: 0,
+    cost: super::Cost::Quadratic(1.7e-10),
 };
 
 /// Queries per block of the distance matrix. The block's products are

@@ -48,6 +48,7 @@ pub const FAMILY: Family = Family {
         })
     }),
     revision: 0,
+    cost: super::Cost::Linear(3.3e-8),
 };
 
 struct Logistic {

@@ -93,6 +93,7 @@ pub const FAMILY: Family = Family {
     }),
     // 1: our own blocked matrix product and Adam's folded step size.
     revision: 1,
+    cost: super::Cost::Linear(1.4e-6),
 };
 
 struct Mlp {

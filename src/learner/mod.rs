@@ -67,6 +67,40 @@ pub struct Family {
     /// one candor version, so that a resumed run does not reuse cells the
     /// earlier algorithm computed (it is part of every cell's fingerprint).
     pub revision: u32,
+    /// How the family's training time grows with the data, for balancing
+    /// shards of a run and for warning before a run that will take hours.
+    pub cost: Cost,
+}
+
+/// A family's time per fit, as measured with `cargo bench --bench families`
+/// on magic_gamma (15,216 training rows, 10 columns) on a 2-core machine:
+/// rough, but it orders families and data sizes correctly.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Cost {
+    /// Seconds per training row and column: training grows linearly with
+    /// the data (give or take a logarithm).
+    Linear(f64),
+    /// Seconds per (training row × scored row × column): every scored row is
+    /// compared with every training row, so time grows with the square of
+    /// the rows (nearest neighbours).
+    Quadratic(f64),
+}
+
+impl Cost {
+    /// Estimated seconds to fit on `train` rows of `columns` columns and
+    /// score `scored` rows.
+    pub fn seconds(self, train: usize, scored: usize, columns: usize) -> f64 {
+        let (n, m, c) = (train as f64, scored as f64, columns.max(1) as f64);
+        match self {
+            Cost::Linear(s) => s * n * c,
+            Cost::Quadratic(s) => s * n * m * c,
+        }
+    }
+
+    /// Whether the time grows faster than the rows.
+    pub fn is_superlinear(self) -> bool {
+        matches!(self, Cost::Quadratic(_))
+    }
 }
 
 impl Family {

@@ -29,6 +29,7 @@ pub const FAMILY: Family = Family {
         })
     }),
     revision: 0,
+    cost: super::Cost::Linear(1.3e-8),
 };
 
 struct NaiveBayesLearner {

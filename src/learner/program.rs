@@ -51,6 +51,7 @@ pub const FAMILY: Family = Family {
     ],
     build: super::Build::Program,
     revision: 0,
+    cost: super::Cost::Linear(1e-6),
 };
 
 /// The placeholders a command may use, each replaced for every fit.

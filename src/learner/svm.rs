@@ -68,6 +68,7 @@ pub const FAMILY: Family = Family {
         })
     }),
     revision: 0,
+    cost: super::Cost::Linear(4.6e-8),
 };
 
 struct Svm {
