@@ -317,3 +317,46 @@ fn cost_balancing_keeps_every_shard_near_the_mean_on_the_families_manifest() {
         assert!(naive / mean > worst / mean, "{n} shards");
     }
 }
+
+#[test]
+fn the_kubernetes_template_asks_for_as_many_shards_as_it_runs_pods() {
+    // An Indexed Job gives each pod JOB_COMPLETION_INDEX in 0..completions;
+    // `--shard auto/N` must name the same N, and every pod must run at once
+    // or the shards merely queue. The full schema check is
+    // scripts/validate-kubernetes.sh (run by .ci/run).
+    let text =
+        std::fs::read_to_string(root().join("deploy/kubernetes/candor-shards.yaml")).unwrap();
+    let field = |name: &str| -> usize {
+        text.lines()
+            .find_map(|l| l.trim().strip_prefix(&format!("{name}: ")))
+            .unwrap_or_else(|| panic!("no {name}"))
+            .trim()
+            .parse()
+            .unwrap()
+    };
+    assert!(text.contains("completionMode: Indexed"));
+    let n = field("completions");
+    assert_eq!(field("parallelism"), n);
+    assert!(text.contains(&format!("- auto/{n}")), "--shard auto/{n}");
+    let merge =
+        std::fs::read_to_string(root().join("deploy/kubernetes/candor-merge.yaml")).unwrap();
+    let results = |t: &str| t.contains("/results/quickstart");
+    assert!(results(&text) && results(&merge));
+}
+
+#[test]
+fn the_slurm_templates_read_the_shard_from_the_array() {
+    let shards = std::fs::read_to_string(root().join("deploy/slurm/candor-shards.sbatch")).unwrap();
+    assert!(shards.contains("--shard \"${SHARD:-auto}\""));
+    let submit = std::fs::read_to_string(root().join("deploy/slurm/submit.sh")).unwrap();
+    assert!(submit.contains("--array=\"1-$shards\""));
+    assert!(submit.contains("--dependency=\"afterok:$array\""));
+    for script in ["candor-shards.sbatch", "candor-merge.sbatch", "submit.sh"] {
+        let ok = Command::new("bash")
+            .arg("-n")
+            .arg(root().join("deploy/slurm").join(script))
+            .status()
+            .unwrap();
+        assert!(ok.success(), "{script} is not valid bash");
+    }
+}

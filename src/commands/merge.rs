@@ -43,7 +43,9 @@ pub fn execute(args: MergeArgs, out: &mut Output) -> Result<Status> {
         datasets_dir: args.datasets,
     })?;
     let (exp, report, shards) = match merged {
-        Merged::Incomplete { missing } => return Err(incomplete(&missing, &args.results, out)),
+        Merged::Incomplete { missing, manifest } => {
+            return Err(incomplete(&missing, &manifest, &args.results, out))
+        }
         Merged::Complete {
             experiment,
             report,
@@ -73,7 +75,12 @@ pub fn execute(args: MergeArgs, out: &mut Output) -> Result<Status> {
 }
 
 /// Notes naming the missing cells, and the error that ends the merge.
-fn incomplete(missing: &[Missing], results: &std::path::Path, out: &mut Output) -> Error {
+fn incomplete(
+    missing: &[Missing],
+    manifest: &std::path::Path,
+    results: &std::path::Path,
+    out: &mut Output,
+) -> Error {
     for m in missing.iter().take(SHOWN) {
         match m.shard {
             Some(s) => out.note(format!("missing: {} (shard {s})", m.cell)),
@@ -86,16 +93,23 @@ fn incomplete(missing: &[Missing], results: &std::path::Path, out: &mut Output) 
     let mut owners: Vec<Shard> = missing.iter().filter_map(|m| m.shard).collect();
     owners.sort_by_key(|s| s.index);
     owners.dedup();
-    let owners: Vec<String> = owners.iter().map(Shard::to_string).collect();
-    let rerun = if owners.is_empty() {
-        "run the shards first".to_string()
-    } else {
-        format!(
-            "rerun shard{} {} with `candor run MANIFEST --out {} --shard I/N`",
-            if owners.len() == 1 { "" } else { "s" },
-            owners.join(", "),
+    let rerun = match owners.as_slice() {
+        [] => "run the shards first".to_string(),
+        [one] => format!(
+            "rerun shard {one} with `candor run {} --out {} --shard {one}`",
+            manifest.display(),
             results.display()
-        )
+        ),
+        many => format!(
+            "rerun shards {} with `candor run {} --out {} --shard I/{}` for each",
+            many.iter()
+                .map(Shard::to_string)
+                .collect::<Vec<_>>()
+                .join(", "),
+            manifest.display(),
+            results.display(),
+            many[0].count
+        ),
     };
     Error::Data(format!(
         "{}: {} cell(s) are missing, so nothing was merged; {rerun}, then merge again",

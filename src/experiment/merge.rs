@@ -45,7 +45,11 @@ pub enum Merged {
         shards: Vec<shard::Status>,
     },
     /// Some cells are missing; nothing was written.
-    Incomplete { missing: Vec<Missing> },
+    Incomplete {
+        missing: Vec<Missing>,
+        /// The manifest the shards ran, for the command that reruns one.
+        manifest: PathBuf,
+    },
 }
 
 /// Merges the shards' cells in a results folder.
@@ -99,7 +103,10 @@ pub fn merge(opts: &MergeOptions) -> Result<Merged> {
         }
     }
     if !missing.is_empty() {
-        return Ok(Merged::Incomplete { missing });
+        return Ok(Merged::Incomplete {
+            missing,
+            manifest: exp.source.path.clone(),
+        });
     }
     let summary = summarise(&exp, &records);
     outputs::write(&exp, &store, &tables, &records, &summary)?;
