@@ -153,7 +153,10 @@ fn a_killed_process_leaves_no_partial_tables_refuses_a_second_writer_and_resumes
     let second = Command::new(bin).args(args(&out)).output().unwrap();
     let err = String::from_utf8_lossy(&second.stderr);
     assert!(!second.status.success());
-    assert!(err.contains("another candor run, shard or merge is writing"), "{err}");
+    assert!(
+        err.contains("another candor run, shard or merge is writing"),
+        "{err}"
+    );
     child.kill().unwrap();
     let status = child.wait().unwrap();
     assert!(
