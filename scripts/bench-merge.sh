@@ -8,7 +8,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release --quiet
-candor="$PWD/target/release/candor"
+candor="${CARGO_TARGET_DIR:-$PWD/target}/release/candor"
 families="${FAMILIES:-10}"
 repeats="${REPEATS:-100}"
 work="$(mktemp -d)"

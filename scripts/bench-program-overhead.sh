@@ -11,7 +11,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release --quiet
-candor="$PWD/target/release/candor"
+candor="${CARGO_TARGET_DIR:-$PWD/target}/release/candor"
 work="$(mktemp -d)"
 trap 'rm -rf "$work"' EXIT
 cd "$work"

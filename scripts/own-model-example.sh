@@ -17,5 +17,5 @@ fi
 "$venv/bin/python3" -c "import sklearn, pandas; print('scikit-learn', sklearn.__version__, '/ pandas', pandas.__version__)"
 
 cargo build --release --quiet
-PATH="$(cd "$venv/bin" && pwd):$PATH" target/release/candor run examples/own-model/compare.toml \
+PATH="$(cd "$venv/bin" && pwd):$PATH" "${CARGO_TARGET_DIR:-target}/release/candor" run examples/own-model/compare.toml \
     --out "${OUT:-results/own-model}" "$@"

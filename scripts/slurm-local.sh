@@ -22,7 +22,7 @@ if ! command -v slurmctld >/dev/null || ! command -v munged >/dev/null; then
 fi
 
 cargo build --release --quiet
-candor="$repo/target/release/candor"
+candor="${CARGO_TARGET_DIR:-$repo/target}/release/candor"
 
 # munge: a key and the daemon.
 install -d -o munge -g munge -m 0700 /etc/munge /var/lib/munge /var/log/munge

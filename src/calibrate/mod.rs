@@ -54,10 +54,23 @@ pub trait BinaryMap: Send {
     /// The calibrated probability of the positive class for one score.
     fn apply(&self, score: f64) -> f64;
 
+    /// Every score of a column at once. Maps whose cost per score falls
+    /// when they see the scores together, in order, override it
+    /// (Venn-Abers).
+    fn apply_all(&self, scores: &[f64]) -> Vec<f64> {
+        scores.iter().map(|&s| self.apply(s)).collect()
+    }
+
     /// A probability interval for the score, for methods that give one
     /// (Venn-Abers).
     fn interval(&self, _score: f64) -> Option<(f64, f64)> {
         None
+    }
+
+    /// The intervals of every score of a column, for methods that give
+    /// them.
+    fn intervals(&self, scores: &[f64]) -> Option<Vec<(f64, f64)>> {
+        scores.iter().map(|&s| self.interval(s)).collect()
     }
 
     /// A fallback the fit took, in plain words.
@@ -353,8 +366,8 @@ impl Calibration for FittedOvr {
         let mut out = Array2::zeros((n, self.n_classes));
         if self.n_classes == 2 {
             let column = column_for(scores, self.input, 1, 2);
-            for (i, s) in column.iter().enumerate() {
-                let p = self.maps[0].apply(*s).clamp(0.0, 1.0);
+            for (i, p) in self.maps[0].apply_all(&column).into_iter().enumerate() {
+                let p = p.clamp(0.0, 1.0);
                 out[[i, 1]] = p;
                 out[[i, 0]] = 1.0 - p;
             }
@@ -362,8 +375,8 @@ impl Calibration for FittedOvr {
         }
         for (k, map) in self.maps.iter().enumerate() {
             let column = column_for(scores, self.input, k, self.n_classes);
-            for (i, s) in column.iter().enumerate() {
-                out[[i, k]] = map.apply(*s).clamp(0.0, 1.0);
+            for (i, p) in map.apply_all(&column).into_iter().enumerate() {
+                out[[i, k]] = p.clamp(0.0, 1.0);
             }
         }
         renormalise(&mut out);
@@ -395,10 +408,11 @@ impl Calibration for FittedOvr {
         };
         let (mut low, mut high, mut widest, mut count) = (0.0, 0.0, 0.0f64, 0usize);
         for (map, &k) in self.maps.iter().zip(&classes) {
-            for s in column_for(scores, self.input, k, self.n_classes) {
-                let Some((p0, p1)) = map.interval(s) else {
-                    return BTreeMap::new();
-                };
+            let column = column_for(scores, self.input, k, self.n_classes);
+            let Some(intervals) = map.intervals(&column) else {
+                return BTreeMap::new();
+            };
+            for (p0, p1) in intervals {
                 low += p0;
                 high += p1;
                 widest = widest.max(p1 - p0);
