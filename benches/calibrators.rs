@@ -34,7 +34,7 @@ fn main() {
         .filter(|a| !a.starts_with('-'))
         .collect();
     let mut rng = SplitMix64::new(11);
-    println!("{:>9}  {}", "rows", "fit + apply (best of 3), seconds");
+    println!("{:>9}  fit + apply (best of 3), seconds", "rows");
     for n in [1_000, 10_000, 100_000, 1_000_000] {
         let (oof, y) = scores(&mut rng, n);
         let (test, _) = scores(&mut rng, n / 4);
