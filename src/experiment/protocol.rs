@@ -14,9 +14,9 @@ use crate::common::scores::Scores;
 use crate::data::folds;
 use crate::data::table::Table;
 use crate::learner::Trainer;
-use crate::metrics::bootstrap::intervals;
+use crate::metrics::bootstrap::{intervals, RESAMPLED};
 use crate::metrics::reliability::{reliability, ReliabilityBin};
-use crate::metrics::{Forecasts, Metric, MetricFn, MetricOptions};
+use crate::metrics::{Forecasts, Metric, MetricOptions};
 use ndarray::Array2;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
@@ -231,15 +231,14 @@ pub fn measure_methods(
             Ok(calibration) => {
                 let p = calibration.apply(test);
                 let fc = Forecasts::new(p.view(), y_test);
-                let boot: Vec<&Metric> = metrics
+                let boot: Vec<&str> = metrics
                     .iter()
-                    .copied()
-                    .filter(|m| crate::metrics::BOOTSTRAPPED.contains(&m.name))
+                    .map(|m| m.name)
+                    .filter(|name| RESAMPLED.contains(name))
                     .collect();
-                let fns: Vec<MetricFn> = boot.iter().map(|m| m.compute).collect();
                 let seed = derive_seed(bootstrap.1, &["bootstrap", &f.name]);
                 let bounds = if bootstrap.0 > 0 {
-                    intervals(&fc, &fns, options, bootstrap.0, seed)
+                    intervals(&fc, &boot, options, bootstrap.0, seed)
                 } else {
                     Vec::new()
                 };
@@ -258,7 +257,7 @@ pub fn measure_methods(
                         .zip(bounds)
                         .map(|(m, [lo, hi])| {
                             let finite = |v: f64| v.is_finite().then_some(v);
-                            (m.name.to_string(), [finite(lo), finite(hi)])
+                            (m.to_string(), [finite(lo), finite(hi)])
                         })
                         .collect(),
                     reliability: reliability(&fc, options.bins),

@@ -7,9 +7,9 @@
 //! and plug-in ECE is biased upwards, so its interval can exclude 0 for a
 //! perfectly calibrated model.
 
-use super::{Forecasts, MetricFn, MetricOptions};
+use super::bins::width_bin;
+use super::{Forecasts, MetricOptions};
 use crate::common::rng::SplitMix64;
-use ndarray::Array2;
 
 /// The q-quantile of sorted values by linear interpolation.
 pub fn quantile(sorted: &[f64], q: f64) -> f64 {
@@ -19,44 +19,99 @@ pub fn quantile(sorted: &[f64], q: f64) -> f64 {
     sorted[lo] + (sorted[hi] - sorted[lo]) * (pos - lo as f64)
 }
 
-/// 95% percentile intervals of several metrics from the same resamples.
-/// Returns one `[low, high]` per metric, or NaNs when `resamples` is 0.
+/// The metrics the bootstrap gives intervals for: both are sums over
+/// rows (ECE's per equal-width bin), so a resample needs only each drawn
+/// row's bin, forecast, outcome and Brier term, not a copy of its row.
+pub const RESAMPLED: [&str; 2] = ["ece", "brier"];
+
+/// 95% percentile intervals of the named metrics (a subset of
+/// [`RESAMPLED`], in any order) from the same resamples; one `[low, high]`
+/// per name, or NaNs when `resamples` is 0.
+///
+/// Each resample draws n rows with replacement and adds each drawn row's
+/// precomputed contributions to its bin's totals and to the Brier sum, in
+/// draw order, which gives the same bits as recomputing the metrics on a
+/// copy of the resampled rows, at a fraction of the cost: about 3 ns per
+/// drawn row, so 1,000 resamples of 200,000 rows take well under a second.
 pub fn intervals(
     fc: &Forecasts<'_>,
-    metrics: &[MetricFn],
+    names: &[&str],
     opts: &MetricOptions,
     resamples: usize,
     seed: u64,
 ) -> Vec<[f64; 2]> {
-    let (p, y) = (fc.p, fc.y);
-    let n = y.len();
+    let n = fc.n();
     if resamples == 0 || n == 0 {
-        return vec![[f64::NAN, f64::NAN]; metrics.len()];
+        return vec![[f64::NAN, f64::NAN]; names.len()];
     }
-    let mut rng = SplitMix64::new(seed);
-    let mut values: Vec<Vec<f64>> = vec![Vec::with_capacity(resamples); metrics.len()];
-    let mut rp = Array2::zeros((n, p.ncols()));
-    let mut ry = vec![0; n];
-    for _ in 0..resamples {
-        for (i, label) in ry.iter_mut().enumerate() {
-            let j = rng.below(n);
-            rp.row_mut(i).assign(&p.row(j));
-            *label = y[j];
-        }
-        let resampled = Forecasts::new(rp.view(), &ry);
-        for (m, f) in metrics.iter().enumerate() {
-            values[m].push(f(&resampled, opts));
-        }
-    }
-    values
+    let (f, o) = fc.reduced();
+    let bins = opts.bins.max(1);
+    // One record per row, so a draw touches one cache line, not four.
+    let rows: Vec<(f64, f64, f64, usize)> = brier_terms(fc)
         .into_iter()
-        .map(|mut v| {
-            v.retain(|x| !x.is_nan());
-            if v.is_empty() {
-                return [f64::NAN, f64::NAN];
-            }
-            v.sort_by(f64::total_cmp);
-            [quantile(&v, 0.025), quantile(&v, 0.975)]
+        .enumerate()
+        .map(|(i, term)| (f[i], o[i], term, width_bin(f[i], bins)))
+        .collect();
+    let mut rng = SplitMix64::new(seed);
+    let (mut eces, mut briers) = (Vec::with_capacity(resamples), Vec::with_capacity(resamples));
+    let mut totals = vec![(0usize, 0.0f64, 0.0f64); bins];
+    for _ in 0..resamples {
+        totals.fill((0, 0.0, 0.0));
+        let mut brier_sum = 0.0;
+        for _ in 0..n {
+            let (f, o, term, bin) = rows[rng.below(n)];
+            let t = &mut totals[bin];
+            t.0 += 1;
+            t.1 += f;
+            t.2 += o;
+            brier_sum += term;
+        }
+        let gap: f64 = totals
+            .iter()
+            .filter(|t| t.0 > 0)
+            .map(|t| (t.1 - t.2).abs())
+            .sum();
+        eces.push(gap / n as f64);
+        briers.push(brier_sum / n as f64);
+    }
+    let bounds = |mut v: Vec<f64>| {
+        v.retain(|x| !x.is_nan());
+        if v.is_empty() {
+            return [f64::NAN, f64::NAN];
+        }
+        v.sort_by(f64::total_cmp);
+        [quantile(&v, 0.025), quantile(&v, 0.975)]
+    };
+    let (ece, brier) = (bounds(eces), bounds(briers));
+    names
+        .iter()
+        .map(|&name| match name {
+            "ece" => ece,
+            "brier" => brier,
+            _ => [f64::NAN, f64::NAN],
+        })
+        .collect()
+}
+
+/// Each row's term of the Brier score, computed as [`super::brier`] does.
+fn brier_terms(fc: &Forecasts<'_>) -> Vec<f64> {
+    let (p, y) = (fc.p, fc.y);
+    if p.ncols() == 2 {
+        return p
+            .column(1)
+            .iter()
+            .zip(y)
+            .map(|(&q, &label)| (q - f64::from(u8::from(label == 1))).powi(2))
+            .collect();
+    }
+    p.rows()
+        .into_iter()
+        .zip(y)
+        .map(|(row, &label)| {
+            row.iter()
+                .enumerate()
+                .map(|(k, &q)| (q - f64::from(u8::from(k == label))).powi(2))
+                .sum::<f64>()
         })
         .collect()
 }
@@ -65,6 +120,7 @@ pub fn intervals(
 mod tests {
     use super::*;
     use crate::metrics::{brier, ece, testing::binary, Forecasts, MetricFn};
+    use ndarray::Array2;
 
     #[test]
     fn quantiles_match_numpy() {
@@ -74,6 +130,71 @@ mod tests {
         assert!((quantile(&v, 0.975) - 3.925).abs() < 1e-12);
     }
 
+    /// The computation the sums replaced: copy the resampled rows and
+    /// recompute each metric on them.
+    fn by_copying(
+        fc: &Forecasts<'_>,
+        opts: &MetricOptions,
+        resamples: usize,
+        seed: u64,
+    ) -> Vec<[f64; 2]> {
+        let (p, y) = (fc.p, fc.y);
+        let n = y.len();
+        let mut rng = SplitMix64::new(seed);
+        let fs: [MetricFn; 2] = [ece, |f, _| brier(f)];
+        let mut values = vec![Vec::new(); 2];
+        let mut rp = Array2::zeros((n, p.ncols()));
+        let mut ry = vec![0; n];
+        for _ in 0..resamples {
+            for (i, label) in ry.iter_mut().enumerate() {
+                let j = rng.below(n);
+                rp.row_mut(i).assign(&p.row(j));
+                *label = y[j];
+            }
+            let resampled = Forecasts::new(rp.view(), &ry);
+            for (m, f) in fs.iter().enumerate() {
+                values[m].push(f(&resampled, opts));
+            }
+        }
+        values
+            .into_iter()
+            .map(|mut v| {
+                v.sort_by(f64::total_cmp);
+                [quantile(&v, 0.025), quantile(&v, 0.975)]
+            })
+            .collect()
+    }
+
+    #[test]
+    fn summing_contributions_gives_the_bits_of_recomputing_on_copies() {
+        let mut rng = SplitMix64::new(21);
+        let opts = MetricOptions::default();
+        let probs: Vec<f64> = (0..500).map(|_| rng.unit()).collect();
+        let y: Vec<usize> = probs.iter().map(|&q| usize::from(rng.unit() < q)).collect();
+        let p = binary(&probs);
+        let fc = Forecasts::new(p.view(), &y);
+        assert_eq!(
+            intervals(&fc, &RESAMPLED, &opts, 200, 3),
+            by_copying(&fc, &opts, 200, 3)
+        );
+        // Three classes: the top-label confidence is binned.
+        let p3 = Array2::from_shape_fn((300, 3), |_| rng.unit());
+        let mut p3 = p3.clone();
+        for mut row in p3.rows_mut() {
+            let s = row.sum();
+            row.mapv_inplace(|v| v / s);
+        }
+        let y3: Vec<usize> = (0..300).map(|_| rng.below(3)).collect();
+        let fc3 = Forecasts::new(p3.view(), &y3);
+        assert_eq!(
+            intervals(&fc3, &RESAMPLED, &opts, 100, 8),
+            by_copying(&fc3, &opts, 100, 8)
+        );
+        // Names pick and order the intervals.
+        let both = intervals(&fc, &RESAMPLED, &opts, 50, 1);
+        assert_eq!(intervals(&fc, &["brier"], &opts, 50, 1), vec![both[1]]);
+    }
+
     #[test]
     fn intervals_cover_the_estimate_and_are_reproducible() {
         let mut rng = SplitMix64::new(4);
@@ -81,10 +202,9 @@ mod tests {
         let y: Vec<usize> = probs.iter().map(|&q| usize::from(rng.unit() < q)).collect();
         let p = binary(&probs);
         let opts = MetricOptions::default();
-        let fs: [MetricFn; 2] = [ece, |f, _| brier(f)];
         let fc = Forecasts::new(p.view(), &y);
-        let a = intervals(&fc, &fs, &opts, 300, 9);
-        assert_eq!(a, intervals(&fc, &fs, &opts, 300, 9));
+        let a = intervals(&fc, &RESAMPLED, &opts, 300, 9);
+        assert_eq!(a, intervals(&fc, &RESAMPLED, &opts, 300, 9));
         let b = brier(&fc);
         assert!(a[1][0] < b && b < a[1][1]);
         assert!(a[0][0] > 0.0 && a[0][0] < a[0][1]);

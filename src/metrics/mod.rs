@@ -196,9 +196,6 @@ pub const METRICS: &[Metric] = &[
     },
 ];
 
-/// Metrics that get bootstrap intervals in every cell.
-pub const BOOTSTRAPPED: &[&str] = &["ece", "brier"];
-
 /// Looks up a metric by name.
 pub fn find(name: &str) -> Option<&'static Metric> {
     METRICS.iter().find(|m| m.name == name)
