@@ -70,6 +70,14 @@ impl SplitMix64 {
         (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
     }
 
+    /// A standard normal draw (Box–Muller; the second value of each pair
+    /// is not kept, so a draw always costs the same two uniforms).
+    pub fn normal(&mut self) -> f64 {
+        let u = 1.0 - self.unit();
+        let v = self.unit();
+        (-2.0 * u.ln()).sqrt() * (std::f64::consts::TAU * v).cos()
+    }
+
     /// Shuffles in place with the Fisher–Yates algorithm.
     pub fn shuffle<T>(&mut self, items: &mut [T]) {
         for i in (1..items.len()).rev() {

@@ -22,6 +22,7 @@ use crate::experiment::protocol::{fit_methods, measure_methods, MethodResult};
 use crate::experiment::store::{CellRecord, Store};
 use crate::export::{Csv, Exporter};
 use crate::metrics::{self, Forecasts, MetricOptions};
+use rayon::prelude::*;
 use serde_json::json;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -147,56 +148,68 @@ pub fn score(path: &Path, opts: &ScoreOptions) -> Result<Scored> {
         hl_groups: 10,
     };
     let assignment = folds::stratified(&pred.labels, k, opts.folds, opts.seed);
-    let mut records = Vec::new();
-    for f in 0..opts.folds {
-        let (train, test) = folds::split(&assignment, f);
-        // The maps are fitted once per fold and measured on every segment.
-        let fitted = fit_methods(&pred.scores(&train), &pred.labels_of(&train), k, &methods);
-        for (d, dataset) in datasets.iter().enumerate() {
-            let rows: Vec<usize> = if d == 0 {
-                test.clone()
-            } else {
-                let g = &groups[d - 1];
-                let of = pred.groups.as_ref().map_or(&[][..], |v| &v[..]);
-                test.iter().copied().filter(|&r| &of[r] == g).collect()
-            };
-            let mut results = if rows.is_empty() {
-                Vec::new()
-            } else {
-                measure_methods(
-                    &fitted,
-                    &pred.scores(&rows),
-                    &pred.labels_of(&rows),
-                    &metric_list,
-                    &options,
-                    (
-                        opts.bootstrap,
-                        crate::common::rng::derive_seed(opts.seed, &[dataset, &f.to_string()]),
-                    ),
-                )
-            };
-            if opts.layout.scores == ScoreScale::Margin {
-                results
-                    .iter_mut()
-                    .filter(|r| r.method == "none")
-                    .for_each(margins_are_not_forecasts);
-            }
-            records.push(CellRecord {
-                dataset: dataset.clone(),
-                family: opts.model.clone(),
-                repeat: 0,
-                fold: f,
-                fingerprint: String::new(),
-                n_train: train.len(),
-                n_test: rows.len(),
-                n_classes: k,
-                error: rows
-                    .is_empty()
-                    .then(|| "no rows of this group in the fold".to_string()),
-                results,
-            });
-        }
-    }
+    // Folds are independent; they run in parallel and their records are
+    // put back in fold order, so the output does not depend on scheduling.
+    let per_fold: Vec<Vec<CellRecord>> = (0..opts.folds)
+        .into_par_iter()
+        .map(|f| {
+            let (train, test) = folds::split(&assignment, f);
+            // The maps are fitted once per fold and measured on every segment.
+            let fitted = fit_methods(&pred.scores(&train), &pred.labels_of(&train), k, &methods);
+            datasets
+                .iter()
+                .enumerate()
+                .map(|(d, dataset)| {
+                    let rows: Vec<usize> = if d == 0 {
+                        test.clone()
+                    } else {
+                        let g = &groups[d - 1];
+                        let of = pred.groups.as_ref().map_or(&[][..], |v| &v[..]);
+                        test.iter().copied().filter(|&r| &of[r] == g).collect()
+                    };
+                    let mut results = if rows.is_empty() {
+                        Vec::new()
+                    } else {
+                        measure_methods(
+                            &fitted,
+                            &pred.scores(&rows),
+                            &pred.labels_of(&rows),
+                            &metric_list,
+                            &options,
+                            (
+                                opts.bootstrap,
+                                crate::common::rng::derive_seed(
+                                    opts.seed,
+                                    &[dataset, &f.to_string()],
+                                ),
+                            ),
+                        )
+                    };
+                    if opts.layout.scores == ScoreScale::Margin {
+                        results
+                            .iter_mut()
+                            .filter(|r| r.method == "none")
+                            .for_each(margins_are_not_forecasts);
+                    }
+                    CellRecord {
+                        dataset: dataset.clone(),
+                        family: opts.model.clone(),
+                        repeat: 0,
+                        fold: f,
+                        fingerprint: String::new(),
+                        n_train: train.len(),
+                        n_test: rows.len(),
+                        n_classes: k,
+                        error: rows
+                            .is_empty()
+                            .then(|| "no rows of this group in the fold".to_string()),
+                        results,
+                    }
+                })
+                .collect()
+        })
+        .collect();
+    let records: Vec<CellRecord> = per_fold.into_iter().flatten().collect();
     write(&exp, &pred, &records, &datasets, opts)?;
     Ok(Scored {
         predictions: pred,
