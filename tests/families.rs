@@ -132,6 +132,7 @@ mod every_family {
             model_seed: 2,
             bootstrap: 0,
             bootstrap_seed: 0,
+            step: None,
         };
         run_cell(
             &plan,

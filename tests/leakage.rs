@@ -131,6 +131,7 @@ fn run(table: &Table, train: &[usize], test: &[usize], standardise: bool) -> See
         model_seed: 9,
         bootstrap: 0,
         bootstrap_seed: 0,
+        step: None,
     };
     let metrics: Vec<_> = METRICS.iter().collect();
     let spy = Spy {

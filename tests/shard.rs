@@ -360,3 +360,54 @@ fn the_slurm_templates_read_the_shard_from_the_array() {
         assert!(ok.success(), "{script} is not valid bash");
     }
 }
+
+#[test]
+fn a_quadratic_family_on_millions_of_rows_is_warned_about_before_the_run() {
+    // kNN compares every scored row with every training row; on 2,000,000
+    // rows the cost model expects hours, and says so with its estimate.
+    // Logistic regression on the same table draws no warning.
+    let text = "name = \"big\"\n[[dataset]]\nname = \"huge\"\nbundled = \"iris\"\n[[family]]\nname = \"nn\"\nkind = \"knn\"\n[[family]]\nname = \"lr\"\nkind = \"logistic\"\n";
+    let exp = manifest::parse(manifest::ManifestSource {
+        path: PathBuf::from("big.toml"),
+        text: text.into(),
+        sha256: String::new(),
+    })
+    .unwrap();
+    let rows = 2_000_000;
+    let mut table = candor::data::csv::parse_csv(
+        b"a,b,y\n1,2,p\n3,4,q\n".as_slice(),
+        "huge.csv",
+        "y",
+        Some("q"),
+    )
+    .unwrap();
+    table.name = "huge".into();
+    table.labels = (0..rows).map(|i| i % 2).collect();
+    for (j, column) in table.columns.iter_mut().enumerate() {
+        column.data = candor::data::table::ColumnData::Numeric(vec![j as f64; rows]);
+    }
+    let warnings = shard::slow_family_warnings(&exp, &[table], 2);
+    assert_eq!(warnings.len(), 1, "{warnings:?}");
+    let w = &warnings[0];
+    assert!(
+        w.contains("family `nn` (knn) on dataset `huge` (2000000 rows)"),
+        "{w}"
+    );
+    assert!(w.contains("grows with the square of the rows"), "{w}");
+    assert!(w.contains("hours for its 5 cells on 2 threads"), "{w}");
+    let small =
+        candor::data::csv::parse_csv(b"a,y\n1,p\n2,q\n3,p\n".as_slice(), "s.csv", "y", Some("q"))
+            .unwrap();
+    assert!(shard::slow_family_warnings(&exp, &[small], 2).is_empty());
+    // `list families` says which families grow that way.
+    let listed = candor(&root()).args(["list", "families"]).output().unwrap();
+    let listed = String::from_utf8_lossy(&listed.stdout);
+    let knn = listed.lines().find(|l| l.starts_with("knn")).unwrap();
+    assert!(
+        knn.ends_with("time grows with the square of the rows"),
+        "{knn}"
+    );
+    assert!(!listed
+        .lines()
+        .any(|l| l.starts_with("logistic") && l.contains("square")));
+}

@@ -4,7 +4,7 @@
 use super::{Output, Status};
 use crate::common::error::Result;
 use crate::common::files::check_writable_dir;
-use crate::experiment::{manifest, runner};
+use crate::experiment::{manifest, runner, shard};
 use crate::gate::baseline;
 use crate::report::deciding_metric;
 use std::fmt::Write as _;
@@ -68,6 +68,10 @@ pub fn execute(args: CheckArgs, out: &mut Output) -> Result<Status> {
             t.columns.len(),
             counts.join(", ")
         );
+    }
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+    for w in shard::slow_family_warnings(&exp, &tables, threads) {
+        out.note(format!("warning: {w}"));
     }
     if let Some((b, n)) = rules {
         let _ = writeln!(out.text, "{}: {n} rules fit this manifest", b.display());

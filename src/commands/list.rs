@@ -52,7 +52,12 @@ pub fn execute(args: ListArgs, out: &mut Output) -> Result<Status> {
                 .max()
                 .unwrap_or(0);
             for f in learner::FAMILIES {
-                let _ = writeln!(text, "{:kw$}  {}", f.kind, f.about);
+                let growth = if f.cost.is_superlinear() {
+                    "; time grows with the square of the rows"
+                } else {
+                    ""
+                };
+                let _ = writeln!(text, "{:kw$}  {}{growth}", f.kind, f.about);
                 for p in f.params {
                     let _ = writeln!(
                         text,

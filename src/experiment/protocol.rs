@@ -39,6 +39,9 @@ pub struct CellPlan<'a> {
     pub bootstrap: usize,
     /// Seeds the bootstrap resamples.
     pub bootstrap_seed: u64,
+    /// Called after each fit and after the evaluation, for progress shown
+    /// inside long cells.
+    pub step: Option<&'a (dyn Fn() + Sync)>,
 }
 
 /// What one calibration method achieved on the test fold.
@@ -114,13 +117,17 @@ pub fn run_cell(
     let mut fits: Vec<Result<Scores>> = (0..=plan.inner_folds)
         .into_par_iter()
         .map(|m| {
-            let Some((fit_pos, val_pos)) = splits.get(m) else {
-                return trainer.fit_and_score(table, plan.train, plan.test, k, plan.model_seed);
+            let scores = match splits.get(m) {
+                None => trainer.fit_and_score(table, plan.train, plan.test, k, plan.model_seed),
+                Some((fit_pos, val_pos)) => {
+                    let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
+                    let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
+                    let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
+                    trainer.fit_and_score(table, &fit_rows, &val_rows, k, seed)
+                }
             };
-            let fit_rows: Vec<usize> = fit_pos.iter().map(|&i| plan.train[i]).collect();
-            let val_rows: Vec<usize> = val_pos.iter().map(|&i| plan.train[i]).collect();
-            let seed = derive_seed(plan.model_seed, &["inner fold", &m.to_string()]);
-            trainer.fit_and_score(table, &fit_rows, &val_rows, k, seed)
+            plan.step.inspect(|step| step());
+            scores
         })
         .collect();
     let test = fits
@@ -161,7 +168,7 @@ pub fn run_cell(
         )
     };
 
-    Ok(evaluate_methods(
+    let results = evaluate_methods(
         &oof,
         &y_oof,
         &test,
@@ -170,7 +177,9 @@ pub fn run_cell(
         metrics,
         options,
         (plan.bootstrap, plan.bootstrap_seed),
-    ))
+    );
+    plan.step.inspect(|step| step());
+    Ok(results)
 }
 
 /// Fits every method on held-out scores `oof` (labels `y_oof`), applies it

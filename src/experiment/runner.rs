@@ -133,7 +133,17 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
             .collect();
     }
     let started = std::time::Instant::now();
-    let bar = progress_bar(opts.progress, cells.len());
+    let progress = Progress::new(opts.progress, cells.len(), exp.evaluation.inner_folds + 2);
+    let threads = if opts.threads == 0 {
+        std::thread::available_parallelism().map_or(1, |n| n.get())
+    } else {
+        opts.threads
+    };
+    let slow = shard::slow_family_warnings(exp, &tables, threads);
+    // Said at once on a terminal, before the hours begin; also at the end.
+    for w in &slow {
+        progress.bar.println(format!("warning: {w}"));
+    }
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(opts.threads)
         .build()
@@ -141,14 +151,10 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
     let outcomes: Vec<Result<(CellRecord, bool)>> = pool.install(|| {
         cells
             .par_iter()
-            .map(|c| {
-                let outcome = run_or_reuse(&shared, c);
-                bar.inc(1);
-                outcome
-            })
+            .map(|c| run_or_reuse(&shared, c, &progress))
             .collect()
     });
-    bar.finish_and_clear();
+    progress.bar.finish_and_clear();
 
     let mut records = Vec::with_capacity(outcomes.len());
     let mut computed = 0;
@@ -186,7 +192,11 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
         reused: records.len() - computed,
         failures: failures(&records),
         fallbacks: fallbacks(&records),
-        warnings: tables.iter().flat_map(|t| t.warnings.clone()).collect(),
+        warnings: tables
+            .iter()
+            .flat_map(|t| t.warnings.clone())
+            .chain(slow)
+            .collect(),
         shard: status,
     })
 }
@@ -219,36 +229,72 @@ fn build_methods(exp: &Experiment) -> Vec<(String, Box<dyn Calibrator>)> {
         .collect()
 }
 
-/// A bar on standard error when asked for, a hidden one otherwise.
-fn progress_bar(shown: bool, cells: usize) -> ProgressBar {
-    let bar = if shown {
-        ProgressBar::new(cells as u64)
-    } else {
-        ProgressBar::hidden()
-    };
-    bar.set_style(
-        ProgressStyle::with_template(
-            "{elapsed_precise} [{wide_bar}] {pos}/{len} cells, ETA {eta} {msg}",
-        )
-        .unwrap_or_else(|_| ProgressStyle::default_bar())
-        .progress_chars("=> "),
-    );
-    bar
+/// A bar on standard error, when asked for, that moves with every fit
+/// inside a cell (its inner fits, its final fit, then its evaluation), so a
+/// run whose cells take minutes each still shows it is moving.
+struct Progress {
+    bar: ProgressBar,
+    /// Steps per cell.
+    steps: usize,
+    cells: usize,
+    done: std::sync::atomic::AtomicUsize,
+}
+
+impl Progress {
+    fn new(shown: bool, cells: usize, steps: usize) -> Progress {
+        let bar = if shown {
+            ProgressBar::new((cells * steps) as u64)
+        } else {
+            ProgressBar::hidden()
+        };
+        bar.set_style(
+            ProgressStyle::with_template("{elapsed_precise} [{wide_bar}] {msg}, ETA {eta}")
+                .unwrap_or_else(|_| ProgressStyle::default_bar())
+                .progress_chars("=> "),
+        );
+        bar.set_message(format!("0/{cells} cells"));
+        Progress {
+            bar,
+            steps,
+            cells,
+            done: std::sync::atomic::AtomicUsize::new(0),
+        }
+    }
+
+    /// One step of a cell is done.
+    fn step(&self) {
+        self.bar.inc(1);
+    }
+
+    /// A cell is done, `taken` of its steps already counted.
+    fn cell_done(&self, taken: usize) {
+        self.bar.inc(self.steps.saturating_sub(taken) as u64);
+        let done = self.done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+        self.bar.set_message(format!("{done}/{} cells", self.cells));
+    }
 }
 
 /// The cell's stored record when its fingerprint still matches, otherwise
 /// a freshly computed and saved one; `true` marks a fresh record.
-fn run_or_reuse(s: &Shared<'_>, c: &Cell) -> Result<(CellRecord, bool)> {
+fn run_or_reuse(s: &Shared<'_>, c: &Cell, progress: &Progress) -> Result<(CellRecord, bool)> {
     let table = &s.tables[c.dataset];
     let spec = &s.exp.families[c.family];
     let fp = &s.fingerprints[c.dataset][c.family];
     let path = s.store.cell_path(&table.name, &spec.name, c.repeat, c.fold);
     if let Some(record) = s.store.reusable(&path, fp) {
+        progress.cell_done(0);
         return Ok((record, false));
     }
     let (train, test) =
         folds::split_for(&s.outer[c.dataset][c.repeat], c.fold, table.order.is_some());
-    let (results, error) = match compute(s, c, &train, &test) {
+    let taken = std::sync::atomic::AtomicUsize::new(0);
+    let step = || {
+        taken.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        progress.step();
+    };
+    let outcome = compute(s, c, &train, &test, &step);
+    progress.cell_done(taken.load(std::sync::atomic::Ordering::Relaxed));
+    let (results, error) = match outcome {
         Ok(results) => (results, None),
         Err(e) => (Vec::new(), Some(e.to_string())),
     };
@@ -271,7 +317,13 @@ fn run_or_reuse(s: &Shared<'_>, c: &Cell) -> Result<(CellRecord, bool)> {
 /// Runs the cell's protocol with the seeds its identity derives. A panic
 /// inside a family or method becomes this cell's error, so the other cells
 /// go on.
-fn compute(s: &Shared<'_>, c: &Cell, train: &[usize], test: &[usize]) -> Result<Vec<MethodResult>> {
+fn compute(
+    s: &Shared<'_>,
+    c: &Cell,
+    train: &[usize],
+    test: &[usize],
+    step: &(dyn Fn() + Sync),
+) -> Result<Vec<MethodResult>> {
     let table = &s.tables[c.dataset];
     let eval = s.exp.evaluation;
     let (repeat, fold) = (c.repeat.to_string(), c.fold.to_string());
@@ -288,6 +340,7 @@ fn compute(s: &Shared<'_>, c: &Cell, train: &[usize], test: &[usize]) -> Result<
             eval.bootstrap_seed,
             &["bootstrap", data, family, &repeat, &fold],
         ),
+        step: Some(step),
     };
     let trainer = &s.trainers[c.family];
     std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {

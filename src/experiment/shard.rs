@@ -181,6 +181,45 @@ pub fn estimate(exp: &Experiment, table: &Table, cell: &Cell) -> f64 {
     classes * (inner + last + methods * per_method + venn_abers)
 }
 
+/// Estimated hours above which a family whose time grows faster than its
+/// rows is worth a warning before the run starts.
+const SLOW_HOURS: f64 = 1.0;
+
+/// One line for each family whose time grows with the square of the rows
+/// (`list families` says which) and that the cost model expects to take
+/// more than an hour on a dataset, with the estimate for `threads` cores.
+pub fn slow_family_warnings(exp: &Experiment, tables: &[Table], threads: usize) -> Vec<String> {
+    let threads = threads.max(1) as f64;
+    let cells = crate::experiment::plan::cells(exp);
+    let mut out = Vec::new();
+    for (f, family) in exp.families.iter().enumerate() {
+        let superlinear = learner::find(&family.kind).is_some_and(|k| k.cost.is_superlinear());
+        if !superlinear {
+            continue;
+        }
+        for (d, table) in tables.iter().enumerate() {
+            let of_pair: Vec<&Cell> = cells
+                .iter()
+                .filter(|c| c.family == f && c.dataset == d)
+                .collect();
+            let seconds: f64 = of_pair.iter().map(|c| estimate(exp, table, c)).sum();
+            let hours = seconds / threads / 3600.0;
+            if hours > SLOW_HOURS {
+                out.push(format!(
+                    "family `{}` ({}) on dataset `{}` ({} rows): its time grows with the square of the rows, and candor's cost model expects about {hours:.0} hours for its {} cells on {} threads; sample the rows, or leave the family out for this dataset",
+                    family.name,
+                    family.kind,
+                    table.name,
+                    table.rows(),
+                    of_pair.len(),
+                    threads
+                ));
+            }
+        }
+    }
+    out
+}
+
 /// The shard (counting from 0) of each cell, by the longest-processing-
 /// time rule on `costs`.
 pub fn assign(costs: &[f64], count: usize) -> Vec<usize> {
