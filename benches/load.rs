@@ -5,23 +5,13 @@
 //! size of the numeric matrix (8 bytes per cell). Run with
 //! `cargo bench --bench load [ROWS]`; the README quotes the figures.
 
+mod support;
+
 use candor::common::rng::SplitMix64;
 use candor::data::csv::{read_csv, CsvFormat};
 use std::io::{BufWriter, Write};
 use std::time::Instant;
-
-fn peak_rss_mb() -> f64 {
-    std::fs::read_to_string("/proc/self/status")
-        .ok()
-        .and_then(|s| {
-            s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| {
-                l.split_whitespace()
-                    .nth(1)
-                    .and_then(|v| v.parse::<f64>().ok())
-            })
-        })
-        .map_or(f64::NAN, |kb| kb / 1024.0)
-}
+use support::peak_rss_mb;
 
 fn main() {
     let rows: usize = std::env::args()

@@ -12,15 +12,7 @@ use std::time::Instant;
 
 fn main() {
     let mut rng = SplitMix64::new(7);
-    let n = 1_000_000;
-    let mut p = Array2::zeros((n, 2));
-    let mut y = Vec::with_capacity(n);
-    for i in 0..n {
-        let q = rng.unit();
-        p[[i, 1]] = q;
-        p[[i, 0]] = 1.0 - q;
-        y.push(usize::from(rng.unit() < q * q));
-    }
+    let (p, y) = binary(&mut rng, 1_000_000, |q| q * q);
     let opts = MetricOptions::default();
     report("binary, 1,000,000 rows", &p, &y, &opts);
 
@@ -36,14 +28,7 @@ fn main() {
     // The bootstrap intervals of ECE and Brier, 1,000 resamples, at the
     // test-fold sizes of 100,000 to 1,000,000-row datasets.
     for n in [20_000, 200_000] {
-        let mut p = Array2::zeros((n, 2));
-        let mut y = Vec::with_capacity(n);
-        for i in 0..n {
-            let q = rng.unit();
-            p[[i, 1]] = q;
-            p[[i, 0]] = 1.0 - q;
-            y.push(usize::from(rng.unit() < q));
-        }
+        let (p, y) = binary(&mut rng, n, |q| q);
         let fc = Forecasts::new(p.view(), &y);
         let start = Instant::now();
         std::hint::black_box(intervals(&fc, &RESAMPLED, &opts, 1000, 1));
@@ -52,6 +37,20 @@ fn main() {
             start.elapsed().as_secs_f64()
         );
     }
+}
+
+/// n binary forecasts q, uniform on [0, 1], whose outcome is 1 with
+/// probability `truth(q)`.
+fn binary(rng: &mut SplitMix64, n: usize, truth: impl Fn(f64) -> f64) -> (Array2<f64>, Vec<usize>) {
+    let mut p = Array2::zeros((n, 2));
+    let mut y = Vec::with_capacity(n);
+    for i in 0..n {
+        let q = rng.unit();
+        p[[i, 1]] = q;
+        p[[i, 0]] = 1.0 - q;
+        y.push(usize::from(rng.unit() < truth(q)));
+    }
+    (p, y)
 }
 
 fn report(what: &str, p: &Array2<f64>, y: &[usize], opts: &MetricOptions) {

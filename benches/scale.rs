@@ -11,24 +11,14 @@
 //! `cargo bench --bench scale -- 1000000 logistic gradient_boosting`.
 //! The README's scaling table comes from it.
 
+mod support;
+
 use candor::common::rng::SplitMix64;
 use candor::experiment::manifest;
 use candor::experiment::runner::{run, RunOptions};
 use std::io::{BufWriter, Write};
 use std::time::Instant;
-
-fn peak_rss_mb() -> f64 {
-    std::fs::read_to_string("/proc/self/status")
-        .ok()
-        .and_then(|s| {
-            s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| {
-                l.split_whitespace()
-                    .nth(1)
-                    .and_then(|v| v.parse::<f64>().ok())
-            })
-        })
-        .map_or(f64::NAN, |kb| kb / 1024.0)
-}
+use support::peak_rss_mb;
 
 fn write_data(path: &std::path::Path, rows: usize) {
     let mut w = BufWriter::new(std::fs::File::create(path).expect("create"));

@@ -86,24 +86,15 @@ fn stderr(o: &Output) -> String {
 
 /// The result files and every report file, with their bytes.
 fn results(dir: &Path) -> Vec<(PathBuf, Vec<u8>)> {
-    let mut out = Vec::new();
-    for f in ["records.jsonl", "summary.csv", "run.json"] {
-        out.push((PathBuf::from(f), std::fs::read(dir.join(f)).unwrap()));
-    }
-    let mut stack = vec![dir.join("report")];
-    while let Some(d) = stack.pop() {
-        for entry in std::fs::read_dir(&d).unwrap() {
-            let p = entry.unwrap().path();
-            if p.is_dir() {
-                stack.push(p);
-            } else {
-                out.push((
-                    p.strip_prefix(dir).unwrap().to_path_buf(),
-                    std::fs::read(&p).unwrap(),
-                ));
-            }
-        }
-    }
+    let tables = ["records.jsonl", "summary.csv", "run.json"].map(|f| dir.join(f));
+    let mut out: Vec<(PathBuf, Vec<u8>)> = tables
+        .into_iter()
+        .chain(walk(&dir.join("report")))
+        .map(|p| {
+            let bytes = std::fs::read(&p).unwrap();
+            (p.strip_prefix(dir).unwrap().to_path_buf(), bytes)
+        })
+        .collect();
     out.sort();
     out
 }

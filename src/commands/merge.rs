@@ -20,16 +20,8 @@ pub struct MergeArgs {
     /// Folder holding the bundled datasets and their catalog.json.
     #[arg(long, value_name = "DIR")]
     pub datasets: Option<PathBuf>,
-    /// No table; errors only.
-    #[arg(long, short)]
-    pub quiet: bool,
-    /// Metric that decides "best" and the ranking in the report
-    /// [default: brier, else log_loss, else the first computed].
-    #[arg(short, long)]
-    pub metric: Option<String>,
-    /// Also write PNG copies of the report's figures.
-    #[arg(long)]
-    pub png: bool,
+    #[command(flatten)]
+    pub finish: Finish,
 }
 
 /// How many missing cells are named one by one.
@@ -52,18 +44,8 @@ pub fn execute(args: MergeArgs, out: &mut Output) -> Result<Status> {
             shards,
         } => (experiment, report, shards),
     };
-    let status = conclude(
-        &exp,
-        &report,
-        &args.results,
-        &Finish {
-            quiet: args.quiet,
-            metric: args.metric,
-            png: args.png,
-        },
-        out,
-    )?;
-    if !args.quiet && !shards.is_empty() {
+    let status = conclude(&exp, &report, &args.results, &args.finish, out)?;
+    if !args.finish.quiet && !shards.is_empty() {
         let _ = writeln!(
             out.text,
             "merged {} shards; their estimated and measured costs: {}",

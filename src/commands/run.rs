@@ -28,16 +28,8 @@ pub struct RunArgs {
     /// Folder holding the bundled datasets and their catalog.json.
     #[arg(long, value_name = "DIR")]
     pub datasets: Option<PathBuf>,
-    /// No progress bar and no table; errors only.
-    #[arg(long, short)]
-    pub quiet: bool,
-    /// Metric that decides "best" and the ranking in the report
-    /// [default: brier, else log_loss, else the first computed].
-    #[arg(short, long)]
-    pub metric: Option<String>,
-    /// Also write PNG copies of the report's figures.
-    #[arg(long)]
-    pub png: bool,
+    #[command(flatten)]
+    pub finish: Finish,
     /// Compute only shard I of N (`2/3`) of the cells, into a results folder
     /// the other shards share; `auto` reads the shard from a Slurm job array
     /// or a Kubernetes Indexed Job (`auto/N` gives N there). Then `candor
@@ -51,7 +43,7 @@ pub struct RunArgs {
 pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status> {
     let exp = manifest::load(&args.manifest)?;
     // Checked before any training: a bad --metric costs seconds, not a run.
-    let (_, why) = deciding_metric(args.metric.as_deref(), &exp.metrics)?;
+    let (_, why) = deciding_metric(args.finish.metric.as_deref(), &exp.metrics)?;
     if let Some(why) = why {
         out.note(format!("note: {why}"));
     }
@@ -67,31 +59,29 @@ pub fn execute(args: RunArgs, progress: bool, out: &mut Output) -> Result<Status
         out_dir: out_dir.clone(),
         threads: args.threads,
         datasets_dir: args.datasets,
-        progress: progress && !args.quiet,
+        progress: progress && !args.finish.quiet,
         shard,
     };
     let done = runner::run(&exp, &options)?;
     if let Some(status) = &done.shard {
-        return Ok(shard_done(status, &done, &out_dir, args.quiet, out));
+        return Ok(shard_done(status, &done, &out_dir, args.finish.quiet, out));
     }
-    conclude(
-        &exp,
-        &done,
-        &out_dir,
-        &Finish {
-            quiet: args.quiet,
-            metric: args.metric,
-            png: args.png,
-        },
-        out,
-    )
+    conclude(&exp, &done, &out_dir, &args.finish, out)
 }
 
-/// What the end of a run shows: how the report is drawn and what is
-/// printed.
-pub(super) struct Finish {
+/// What the end of a run or merge shows: what is printed and how the
+/// report is drawn.
+#[derive(Debug, Clone, clap::Args)]
+pub struct Finish {
+    /// No progress bar and no table; errors only.
+    #[arg(long, short)]
     pub quiet: bool,
+    /// Metric that decides "best" and the ranking in the report
+    /// [default: brier, else log_loss, else the first computed].
+    #[arg(short, long)]
     pub metric: Option<String>,
+    /// Also write PNG copies of the report's figures.
+    #[arg(long)]
     pub png: bool,
 }
 

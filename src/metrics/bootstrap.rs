@@ -19,6 +19,7 @@
 //! two), and the cost of 1,000 resamples no longer grows with the rows.
 
 use super::bins::width_bin;
+use super::brier::terms;
 use super::{Forecasts, MetricOptions};
 use crate::common::rng::SplitMix64;
 
@@ -62,7 +63,7 @@ pub fn intervals(
     let (f, o) = fc.reduced();
     let bins = opts.bins.max(1);
     // One record per row, so a draw touches one cache line, not four.
-    let rows: Vec<Row> = brier_terms(fc)
+    let rows: Vec<Row> = terms(fc)
         .into_iter()
         .enumerate()
         .map(|(i, term)| (f[i], o[i], term, width_bin(f[i], bins)))
@@ -196,29 +197,6 @@ fn cholesky(a: &[f64], d: usize) -> Vec<f64> {
     l
 }
 
-/// Each row's term of the Brier score, computed as [`super::brier`] does.
-fn brier_terms(fc: &Forecasts<'_>) -> Vec<f64> {
-    let (p, y) = (fc.p, fc.y);
-    if p.ncols() == 2 {
-        return p
-            .column(1)
-            .iter()
-            .zip(y)
-            .map(|(&q, &label)| (q - f64::from(u8::from(label == 1))).powi(2))
-            .collect();
-    }
-    p.rows()
-        .into_iter()
-        .zip(y)
-        .map(|(row, &label)| {
-            row.iter()
-                .enumerate()
-                .map(|(k, &q)| (q - f64::from(u8::from(k == label))).powi(2))
-                .sum::<f64>()
-        })
-        .collect()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -317,7 +295,7 @@ mod tests {
         let fc = Forecasts::new(p.view(), &y);
         let opts = MetricOptions::default();
         let limit = intervals(&fc, &RESAMPLED, &opts, 1000, 2);
-        let rows: Vec<Row> = brier_terms(&fc)
+        let rows: Vec<Row> = terms(&fc)
             .into_iter()
             .enumerate()
             .map(|(i, t)| {
@@ -345,7 +323,7 @@ mod tests {
                 "{got:?} vs {want:?}"
             );
         }
-        let terms = brier_terms(&fc);
+        let terms = terms(&fc);
         let mean = terms.iter().sum::<f64>() / n as f64;
         let sd = (terms.iter().map(|t| (t - mean).powi(2)).sum::<f64>() / n as f64).sqrt();
         let half = 1.96 * sd / (n as f64).sqrt();

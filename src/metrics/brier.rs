@@ -15,16 +15,21 @@ use super::{Forecasts, MetricOptions};
 
 /// Mean squared difference between forecast and outcome.
 pub fn brier(fc: &Forecasts<'_>) -> f64 {
+    terms(fc).iter().sum::<f64>() / fc.y.len() as f64
+}
+
+/// Each row's squared difference between forecast and outcome (the
+/// positive class's for a binary task, summed over classes otherwise): the
+/// Brier score is their mean, and the bootstrap resamples them.
+pub fn terms(fc: &Forecasts<'_>) -> Vec<f64> {
     let (p, y) = (fc.p, fc.y);
-    let n = y.len() as f64;
     if p.ncols() == 2 {
         return p
             .column(1)
             .iter()
             .zip(y)
             .map(|(&q, &label)| (q - f64::from(u8::from(label == 1))).powi(2))
-            .sum::<f64>()
-            / n;
+            .collect();
     }
     p.rows()
         .into_iter()
@@ -35,8 +40,7 @@ pub fn brier(fc: &Forecasts<'_>) -> f64 {
                 .map(|(k, &q)| (q - f64::from(u8::from(k == label))).powi(2))
                 .sum::<f64>()
         })
-        .sum::<f64>()
-        / n
+        .collect()
 }
 
 /// The three Murphy terms.
