@@ -11,15 +11,21 @@ pub fn sigmoid(z: f64) -> f64 {
 }
 
 /// The median of a non-empty slice of finite values (mean of the middle two
-/// for even lengths). Sorts a copy.
+/// for even lengths). Selects on a copy rather than sorting it: linear time,
+/// which matters when every fit imputes dozens of columns of a million rows.
 pub fn median(values: &[f64]) -> f64 {
     let mut v = values.to_vec();
-    v.sort_by(f64::total_cmp);
     let n = v.len();
+    let (below, &mut middle, _) = v.select_nth_unstable_by(n / 2, f64::total_cmp);
     if n % 2 == 1 {
-        v[n / 2]
+        middle
     } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
+        let lower = below
+            .iter()
+            .copied()
+            .max_by(f64::total_cmp)
+            .unwrap_or(middle);
+        0.5 * (lower + middle)
     }
 }
 
@@ -39,5 +45,24 @@ mod tests {
     fn median_of_odd_and_even_lengths() {
         assert_eq!(median(&[3.0, 1.0, 2.0]), 2.0);
         assert_eq!(median(&[4.0, 1.0, 2.0, 3.0]), 2.5);
+    }
+
+    #[test]
+    fn median_by_selection_has_the_bits_of_median_by_sorting() {
+        let mut rng = crate::common::rng::SplitMix64::new(7);
+        for n in 1..300 {
+            // Few distinct values, so ties and both zeros are common.
+            let v: Vec<f64> = (0..n)
+                .map(|_| [-0.0, 0.0, 1.5, -2.25, 3.0][rng.below(5)] * rng.below(4) as f64)
+                .collect();
+            let mut sorted = v.clone();
+            sorted.sort_by(f64::total_cmp);
+            let by_sorting = if n % 2 == 1 {
+                sorted[n / 2]
+            } else {
+                0.5 * (sorted[n / 2 - 1] + sorted[n / 2])
+            };
+            assert_eq!(median(&v).to_bits(), by_sorting.to_bits(), "{v:?}");
+        }
     }
 }

@@ -19,6 +19,7 @@ use crate::common::params::{ParamKind, ParamSpec, ParamValue};
 use crate::common::scores::{binary_from_log_odds, softmax_rows, Scores};
 use linfa::prelude::*;
 use linfa_logistic::MultiLogisticRegression;
+use ndarray::linalg::general_mat_mul;
 use ndarray::{Array1, Array2, ArrayView2};
 
 pub const FAMILY: Family = Family {
@@ -119,6 +120,9 @@ fn objective(x: ArrayView2<'_, f64>, t: &[f64], l2: f64, w: &Array1<f64>, b: f64
     loss + 0.5 * l2 * w.dot(w)
 }
 
+/// Rows per block of the Hessian's product.
+const HESSIAN_BLOCK: usize = 8192;
+
 /// Newton's method with backtracking for binary L2 logistic regression.
 fn newton_binary(
     x: ArrayView2<'_, f64>,
@@ -140,15 +144,25 @@ fn newton_binary(
         grad.slice_mut(ndarray::s![..d])
             .assign(&(x.t().dot(&r) + &w * l2));
         grad[d] = r.sum();
-        let sqrt_w = p.mapv(|pi| (pi * (1.0 - pi)).sqrt());
-        let mut xs = Array2::zeros((n, d + 1));
-        for i in 0..n {
-            for j in 0..d {
-                xs[[i, j]] = x[[i, j]] * sqrt_w[i];
+        // [X 1] scaled by sqrt(D), one block of rows at a time, so the
+        // Hessian costs a block's memory rather than a copy of X.
+        let mut h = Array2::<f64>::zeros((d + 1, d + 1));
+        let mut xs = Array2::<f64>::zeros((HESSIAN_BLOCK.min(n), d + 1));
+        for start in (0..n).step_by(HESSIAN_BLOCK) {
+            let rows = HESSIAN_BLOCK.min(n - start);
+            let mut block = xs.slice_mut(ndarray::s![..rows, ..]);
+            for (i, mut out) in block.rows_mut().into_iter().enumerate() {
+                let (src, sw) = (
+                    x.row(start + i),
+                    (p[start + i] * (1.0 - p[start + i])).sqrt(),
+                );
+                for (o, &v) in out.iter_mut().zip(src.iter()) {
+                    *o = v * sw;
+                }
+                out[d] = sw;
             }
-            xs[[i, d]] = sqrt_w[i];
+            general_mat_mul(1.0, &block.t(), &block, 1.0, &mut h);
         }
-        let mut h = xs.t().dot(&xs);
         for j in 0..d {
             h[[j, j]] += l2;
         }

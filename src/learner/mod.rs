@@ -200,6 +200,9 @@ impl Trainer {
         }
         let x_fit = prep.transform(table, fit_rows);
         let model = learner.fit(x_fit.view(), &y_fit, n_classes, seed)?;
+        // Freed before the rows to score are encoded, so the two matrices
+        // are never held at once.
+        drop(x_fit);
         let scores = model.predict(prep.transform(table, score_rows).view());
         let finite = scores.proba.iter().all(|p| p.is_finite())
             && scores

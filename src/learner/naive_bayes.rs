@@ -53,7 +53,9 @@ impl Learner for NaiveBayesLearner {
         n_classes: usize,
         _seed: u64,
     ) -> Result<Box<dyn Model>> {
-        let data = Dataset::new(x.to_owned(), Array1::from(y.to_vec()));
+        // A view, not a copy: at a million rows a copy of the training
+        // matrix is more memory than the rest of the fit.
+        let data = DatasetBase::new(x, Array1::from(y.to_vec()));
         let model = GaussianNb::params()
             .var_smoothing(self.variance_floor)
             .fit(&data)
