@@ -140,9 +140,15 @@ fn newton_binary(
         let p = z.mapv(crate::common::math::sigmoid);
         let r = Array1::from_iter(p.iter().zip(&t).map(|(pi, ti)| pi - ti));
         // Gradient over (w, b), then the Hessian [X 1]' D [X 1] + l2 I_w.
+        // X'r row by row: reading X along its rows, where ndarray's
+        // product with the transposed view strides down every column
+        // (the same additions in the same order, so the same bits).
+        let mut xr = Array1::<f64>::zeros(d);
+        for (row, &ri) in x.rows().into_iter().zip(&r) {
+            xr.zip_mut_with(&row, |g, &v| *g += v * ri);
+        }
         let mut grad = Array1::zeros(d + 1);
-        grad.slice_mut(ndarray::s![..d])
-            .assign(&(x.t().dot(&r) + &w * l2));
+        grad.slice_mut(ndarray::s![..d]).assign(&(xr + &w * l2));
         grad[d] = r.sum();
         // [X 1] scaled by sqrt(D), one block of rows at a time, so the
         // Hessian costs a block's memory rather than a copy of X.
