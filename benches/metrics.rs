@@ -26,8 +26,9 @@ fn main() {
     report("5 classes, 200,000 rows", &p, &y, &opts);
 
     // The bootstrap intervals of ECE and Brier, 1,000 resamples, at the
-    // test-fold sizes of 100,000 to 1,000,000-row datasets.
-    for n in [20_000, 200_000] {
+    // test-fold sizes of 100,000- to 5,000,000-row datasets: row by row up
+    // to 50,000 rows, from the normal limit beyond.
+    for n in [20_000, 50_000, 200_000, 1_000_000] {
         let (p, y) = binary(&mut rng, n, |q| q);
         let fc = Forecasts::new(p.view(), &y);
         let start = Instant::now();
