@@ -355,7 +355,8 @@ fn the_slurm_templates_read_the_shard_from_the_array() {
 #[test]
 fn a_quadratic_family_on_millions_of_rows_is_warned_about_before_the_run() {
     // kNN compares every scored row with every training row; on 2,000,000
-    // rows the cost model expects hours, and says so with its estimate.
+    // rows of ten columns the cost model expects hours (about three), and
+    // says so with its estimate.
     // Logistic regression on the same table draws no warning.
     let text = "name = \"big\"\n[[dataset]]\nname = \"huge\"\nbundled = \"iris\"\n[[family]]\nname = \"nn\"\nkind = \"knn\"\n[[family]]\nname = \"lr\"\nkind = \"logistic\"\n";
     let exp = manifest::parse(manifest::ManifestSource {
@@ -366,7 +367,7 @@ fn a_quadratic_family_on_millions_of_rows_is_warned_about_before_the_run() {
     .unwrap();
     let rows = 2_000_000;
     let mut table = candor::data::csv::parse_csv(
-        b"a,b,y\n1,2,p\n3,4,q\n".as_slice(),
+        b"a,b,c,d,e,f,g,h,i,j,y\n1,2,3,4,5,6,7,8,9,0,p\n3,4,5,6,7,8,9,0,1,2,q\n".as_slice(),
         "huge.csv",
         "y",
         Some("q"),

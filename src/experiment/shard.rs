@@ -15,6 +15,7 @@ use crate::data::table::Table;
 use crate::experiment::manifest::Experiment;
 use crate::experiment::plan::Cell;
 use crate::learner;
+use crate::metrics::bootstrap::EXACT_ROWS;
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
@@ -138,17 +139,18 @@ fn from_environment(
 }
 
 /// Seconds per test row, bootstrap resample and method, for the metrics'
-/// intervals (1,000 resamples of spambase's and magic_gamma's test folds,
-/// seven methods, release build on a 2-core machine: 2.6e-8).
-const BOOTSTRAP_SECONDS: f64 = 2.6e-8;
+/// intervals (`cargo bench --bench metrics`: 1,000 resamples of 20,000
+/// rows in 0.067 s on this project's 2-core machine). Beyond
+/// [`EXACT_ROWS`] test rows the resamples come from the normal limit, whose
+/// cost no longer grows with the resamples and is small beside the metrics.
+const BOOTSTRAP_SECONDS: f64 = 3.4e-9;
 /// Seconds per test row and method for the metrics themselves (the
 /// calibration slope and intercept fit a small logistic regression each).
 const METRIC_SECONDS: f64 = 2e-6;
-/// Seconds per training row and method to fit a calibration map.
-const CALIBRATE_SECONDS: f64 = 1e-7;
-/// Seconds per (calibration row × test row) of Venn-Abers, which refits
-/// isotonic regression for every test score.
-const VENN_ABERS_SECONDS: f64 = 1e-8;
+/// Seconds per training row and method to fit a calibration map (`cargo
+/// bench --bench calibrators`: the slowest, Platt scaling and Venn-Abers,
+/// take about 0.24 s on 1,000,000 rows).
+const CALIBRATE_SECONDS: f64 = 2.4e-7;
 
 /// A cell's estimated seconds: the family's M inner fits and final fit
 /// (from its [`learner::Cost`]), then fitting, applying and measuring every
@@ -170,15 +172,10 @@ pub fn estimate(exp: &Experiment, table: &Table, cell: &Cell) -> f64 {
     let methods = exp.methods.len() as f64;
     let per_method = CALIBRATE_SECONDS * train
         + METRIC_SECONDS * test
-        + BOOTSTRAP_SECONDS * test * eval.bootstrap as f64;
-    let venn_abers = if exp.methods.iter().any(|x| x == "venn_abers") {
-        VENN_ABERS_SECONDS * train * test
-    } else {
-        0.0
-    };
+        + BOOTSTRAP_SECONDS * test.min(EXACT_ROWS as f64) * eval.bootstrap as f64;
     // Multiclass tasks fit and calibrate about one model per class.
     let classes = (table.n_classes() as f64 - 1.0).max(1.0);
-    classes * (inner + last + methods * per_method + venn_abers)
+    classes * (inner + last + methods * per_method)
 }
 
 /// Estimated hours above which a family whose time grows faster than its
