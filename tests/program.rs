@@ -14,13 +14,8 @@ fn candor() -> Command {
 /// column holding blanks and a level with a comma, so the raw exchange has
 /// to quote and leave fields empty.
 fn write_data(dir: &Path) {
-    let mut state: u64 = 0x2545_f491_4f6c_dd1d;
-    let mut uniform = || {
-        state ^= state << 13;
-        state ^= state >> 7;
-        state ^= state << 17;
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    };
+    let mut rng = candor::common::rng::SplitMix64::new(0x2545_f491_4f6c_dd1d);
+    let mut uniform = || rng.unit();
     let mut csv = String::from("x,colour,y\n");
     for i in 0..240 {
         let x = 4.0 * uniform() - 2.0;

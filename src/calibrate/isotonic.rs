@@ -173,13 +173,8 @@ mod tests {
     fn keeping_only_the_knots_changes_no_output() {
         // Scores on a coarse grid (many ties) with noisy labels: thousands
         // of thresholds, a few dozen distinct fitted values.
-        let mut state = 0x9e37_79b9_7f4a_7c15_u64;
-        let mut next = || {
-            state ^= state << 13;
-            state ^= state >> 7;
-            state ^= state << 17;
-            (state >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut rng = crate::common::rng::SplitMix64::new(0x9e37_79b9_7f4a_7c15);
+        let mut next = || rng.unit();
         let n = 5000;
         let scores: Vec<f64> = (0..n).map(|_| (next() * 4000.0).round() / 4000.0).collect();
         let targets: Vec<f64> = scores

@@ -133,6 +133,29 @@ fn cross(ax: f64, ay: f64, bx: f64, by: f64, cx: f64, cy: f64) -> f64 {
     (bx - ax) * (cy - ay) - (by - ay) * (cx - ax)
 }
 
+/// The lower hulls of the points taken in `order`, as a tree: each point's
+/// parent is the hull vertex beside it when it was added. `convex(p, q, i)`
+/// says whether the hull's last two vertices p, q stay when i comes.
+fn hull_tree(
+    n: usize,
+    order: impl Iterator<Item = usize>,
+    convex: impl Fn(usize, usize, usize) -> bool,
+) -> Tree {
+    let mut tree = Tree::with_capacity(n);
+    let mut stack: Vec<usize> = Vec::new();
+    for i in order {
+        while let [.., p, q] = stack[..] {
+            if convex(p, q, i) {
+                break;
+            }
+            stack.pop();
+        }
+        tree.attach(i, stack.last().map_or(NONE, |&p| p as u32));
+        stack.push(i);
+    }
+    tree
+}
+
 impl VennAbersMap {
     /// Pools the calibration set and builds both hull trees.
     pub fn fit(scores: &[f64], labels: &[bool]) -> VennAbersMap {
@@ -157,30 +180,9 @@ impl VennAbersMap {
         // Lower hulls by the monotone chain: left to right for prefixes,
         // right to left for suffixes; a point's parent is the hull vertex
         // beside it when it was added.
-        let mut left = Tree::with_capacity(n);
-        let mut stack: Vec<usize> = Vec::new();
-        for i in 0..n {
-            while let [.., a, b] = stack[..] {
-                if cross(x[a], y[a], x[b], y[b], x[i], y[i]) > 0.0 {
-                    break;
-                }
-                stack.pop();
-            }
-            left.attach(i, stack.last().map_or(NONE, |&p| p as u32));
-            stack.push(i);
-        }
-        let mut right = Tree::with_capacity(n);
-        stack.clear();
-        for i in (0..n).rev() {
-            while let [.., b, a] = stack[..] {
-                if cross(x[i], y[i], x[a], y[a], x[b], y[b]) > 0.0 {
-                    break;
-                }
-                stack.pop();
-            }
-            right.attach(i, stack.last().map_or(NONE, |&p| p as u32));
-            stack.push(i);
-        }
+        let turn = |a: usize, b: usize, c: usize| cross(x[a], y[a], x[b], y[b], x[c], y[c]);
+        let left = hull_tree(n, 0..n, |p, q, i| turn(p, q, i) > 0.0);
+        let right = hull_tree(n, (0..n).rev(), |p, q, i| turn(i, q, p) > 0.0);
         VennAbersMap {
             scores: distinct,
             x,
@@ -352,13 +354,8 @@ mod tests {
         // Scores on coarse grids, so that calibration and test scores tie
         // often, with labels from a noisy increasing rule; test scores both
         // on and between the calibration scores and beyond both ends.
-        let mut state = 0x853c_49e6_748f_ea9b_u64;
-        let mut next = || {
-            state ^= state << 13;
-            state ^= state >> 7;
-            state ^= state << 17;
-            (state >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut rng = crate::common::rng::SplitMix64::new(0x853c_49e6_748f_ea9b);
+        let mut next = || rng.unit();
         for case in 0..60 {
             let n = [1, 2, 3, 5, 20, 200, 1000][case % 7];
             let grid = [4.0, 10.0, 50.0, 1e6][case % 4];

@@ -106,18 +106,25 @@ fn shard_done(
             out_dir.display()
         );
     }
-    for f in &done.failures {
-        out.note(format!("failed: {f}"));
-    }
-    if done.failures.is_empty() {
-        Status::Success
-    } else {
-        out.note(format!(
-            "error: {} cell(s) or method(s) of shard {} failed; their errors are in the cell records under {}/cells",
-            done.failures.len(),
+    failed(&done.failures, out, |n| {
+        format!(
+            "error: {n} cell(s) or method(s) of shard {} failed; their errors are in the cell records under {}/cells",
             status.shard,
             out_dir.display()
-        ));
+        )
+    })
+}
+
+/// Notes each failure and then `closing` (given their count), if any
+/// failed; the run's status either way.
+fn failed(failures: &[String], out: &mut Output, closing: impl FnOnce(usize) -> String) -> Status {
+    for f in failures {
+        out.note(format!("failed: {f}"));
+    }
+    if failures.is_empty() {
+        Status::Success
+    } else {
+        out.note(closing(failures.len()));
         Status::CellsFailed
     }
 }
@@ -174,16 +181,10 @@ pub(super) fn conclude(
     if !finish.quiet {
         let _ = writeln!(out.text, "report: {}", html.display());
     }
-    if done.failures.is_empty() {
-        return Ok(Status::Success);
-    }
-    for f in &done.failures {
-        out.note(format!("failed: {f}"));
-    }
-    out.note(format!(
-        "error: {} cell(s) or method(s) failed; their errors are in {}/records.jsonl, the other results are complete",
-        done.failures.len(),
-        out_dir.display()
-    ));
-    Ok(Status::CellsFailed)
+    Ok(failed(&done.failures, out, |n| {
+        format!(
+            "error: {n} cell(s) or method(s) failed; their errors are in {}/records.jsonl, the other results are complete",
+            out_dir.display()
+        )
+    }))
 }

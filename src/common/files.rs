@@ -28,6 +28,16 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
     })
 }
 
+/// Writes a value as pretty JSON with a final newline, atomically: cell
+/// records, shard statuses, `run.json` and saved maps are all read back by
+/// a later command, so none may be left half-written.
+pub fn write_json(path: &Path, value: &impl serde::Serialize) -> Result<()> {
+    let mut text = serde_json::to_string_pretty(value)
+        .map_err(|e| Error::Io(format!("{}: cannot encode: {e}", path.display())))?;
+    text.push('\n');
+    write_atomic(path, text.as_bytes())
+}
+
 /// Checks, without creating anything that stays, that a folder could be
 /// made or written at `dir`: the folder itself if it exists, else its
 /// nearest existing ancestor. So `candor check` can refuse an output

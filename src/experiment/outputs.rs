@@ -4,7 +4,7 @@
 //! written atomically, so a reader never sees half a file.
 
 use crate::common::error::{Error, Result};
-use crate::common::files::write_atomic;
+use crate::common::files::{write_atomic, write_json};
 use crate::data::source::DataSource;
 use crate::data::table::Table;
 use crate::experiment::manifest::Experiment;
@@ -91,7 +91,5 @@ pub fn write(
         cells: records.len(),
         failed_cells: records.iter().filter(|r| r.error.is_some()).count(),
     };
-    let mut text = serde_json::to_string_pretty(&info).map_err(encode)?;
-    text.push('\n');
-    write_atomic(&store.dir.join("run.json"), text.as_bytes())
+    write_json(&store.dir.join("run.json"), &info)
 }

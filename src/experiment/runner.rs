@@ -123,14 +123,11 @@ pub fn run(exp: &Experiment, opts: &RunOptions) -> Result<RunReport> {
     if let Some(s) = opts.shard {
         let costs = shard_costs(exp, &tables, &cells);
         let owner = shard::assign(&costs, s.count);
-        estimated = (0..cells.len())
+        let mine: Vec<usize> = (0..cells.len())
             .filter(|&i| owner[i] + 1 == s.index)
-            .map(|i| costs[i])
-            .sum();
-        cells = (0..cells.len())
-            .filter(|&i| owner[i] + 1 == s.index)
-            .map(|i| cells[i])
             .collect();
+        estimated = mine.iter().map(|&i| costs[i]).sum();
+        cells = mine.iter().map(|&i| cells[i]).collect();
     }
     let started = std::time::Instant::now();
     let progress = Progress::new(opts.progress, cells.len(), exp.evaluation.inner_folds + 2);

@@ -12,7 +12,7 @@
 
 use crate::calibrate::{self, CalibrationFile};
 use crate::common::error::{Error, Result};
-use crate::common::files::write_atomic;
+use crate::common::files::{write_atomic, write_json};
 use crate::common::params::Params;
 use crate::data::folds;
 use crate::data::predictions::{self, Layout, Predictions, ScoreScale};
@@ -236,7 +236,8 @@ fn margins_are_not_forecasts(raw: &mut MethodResult) {
 /// The metrics of a margin that keep their meaning.
 const RANK_METRICS: [&str; 2] = ["auc", "accuracy"];
 
-/// The reason a margin's `none` row is blank, as tables show it.
+/// The strategy of a margin's `none` row: the mark by which tables show it
+/// as `n/a` and the diagnosis leaves it out.
 pub const MARGIN_NOTE: &str =
     "not applicable: margins are not probabilities (only auc and accuracy are reported)";
 
@@ -296,9 +297,7 @@ fn write(
         "cells": records.len(),
         "failed_cells": records.iter().filter(|r| r.error.is_some()).count(),
     });
-    let mut text = serde_json::to_string_pretty(&info).map_err(encode)?;
-    text.push('\n');
-    write_atomic(&store.dir.join("run.json"), text.as_bytes())
+    write_json(&store.dir.join("run.json"), &info)
 }
 
 /// Every metric of the predictions as given, on all rows and per group,
@@ -365,10 +364,7 @@ pub fn save_fit(pred: &Predictions, method: &str, file: &Path) -> Result<()> {
     if pred.scale != ScoreScale::Probability {
         doc.scores = Some(pred.scale.name().to_string());
     }
-    let mut text = serde_json::to_string_pretty(&doc)
-        .map_err(|e| Error::Io(format!("cannot encode the map: {e}")))?;
-    text.push('\n');
-    write_atomic(file, text.as_bytes())
+    write_json(file, &doc)
 }
 
 /// Applies a calibration file to predictions; returns the CSV text with a

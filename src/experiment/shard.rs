@@ -10,7 +10,7 @@
 //! so the division depends on nothing but the manifest and the data.
 
 use crate::common::error::{Error, Result};
-use crate::common::files::write_atomic;
+use crate::common::files::write_json;
 use crate::data::table::Table;
 use crate::experiment::manifest::Experiment;
 use crate::experiment::plan::Cell;
@@ -257,11 +257,7 @@ pub struct Status {
 impl Status {
     /// Writes the status atomically.
     pub fn save(&self, dir: &Path) -> Result<()> {
-        let path = self.shard.status_path(dir);
-        let mut text = serde_json::to_string_pretty(self)
-            .map_err(|e| Error::Io(format!("{}: cannot encode: {e}", path.display())))?;
-        text.push('\n');
-        write_atomic(&path, text.as_bytes())
+        write_json(&self.shard.status_path(dir), self)
     }
 
     /// Every shard status in a results folder, in shard order; unreadable

@@ -8,7 +8,7 @@
 //!   once every cell is done.
 
 use crate::common::error::{Error, Result};
-use crate::common::files::write_atomic;
+use crate::common::files::write_json;
 use crate::experiment::protocol::MethodResult;
 use crate::experiment::shard::Shard;
 use serde::{Deserialize, Serialize};
@@ -37,6 +37,22 @@ fn lock_file(dir: &Path, name: &str) -> Result<std::fs::File> {
         .write(true)
         .open(dir.join(name))
         .map_err(|e| cannot_write(dir, e))
+}
+
+/// The outcome of trying a lock on `dir`: `busy` says what holds it and
+/// what to do.
+fn hold(
+    dir: &Path,
+    attempt: std::result::Result<(), std::fs::TryLockError>,
+    busy: &str,
+) -> Result<()> {
+    match attempt {
+        Ok(()) => Ok(()),
+        Err(std::fs::TryLockError::WouldBlock) => {
+            Err(Error::Io(format!("{}: {busy}", dir.display())))
+        }
+        Err(std::fs::TryLockError::Error(e)) => Err(cannot_write(dir, e)),
+    }
 }
 
 /// Everything known about one finished cell.
@@ -76,16 +92,11 @@ impl Store {
     /// merge, and checks that it can be written, before any work is done.
     pub fn open(dir: &Path) -> Result<Store> {
         let folder = open_writable(dir)?;
-        match folder.try_lock() {
-            Ok(()) => {}
-            Err(std::fs::TryLockError::WouldBlock) => {
-                return Err(Error::Io(format!(
-                    "{}: another candor run, shard or merge is writing to this results folder; wait for it to finish, or choose another folder with --out",
-                    dir.display()
-                )))
-            }
-            Err(std::fs::TryLockError::Error(e)) => return Err(cannot_write(dir, e)),
-        }
+        hold(
+            dir,
+            folder.try_lock(),
+            "another candor run, shard or merge is writing to this results folder; wait for it to finish, or choose another folder with --out",
+        )?;
         Ok(Store {
             dir: dir.to_path_buf(),
             _locks: vec![folder],
@@ -97,30 +108,22 @@ impl Store {
     /// or a merge.
     pub fn open_shard(dir: &Path, shard: Shard) -> Result<Store> {
         let folder = open_writable(dir)?;
-        match folder.try_lock_shared() {
-            Ok(()) => {}
-            Err(std::fs::TryLockError::WouldBlock) => {
-                return Err(Error::Io(format!(
-                    "{}: a whole candor run or a merge is using this results folder; wait for it to finish before starting shards",
-                    dir.display()
-                )))
-            }
-            Err(std::fs::TryLockError::Error(e)) => return Err(cannot_write(dir, e)),
-        }
+        hold(
+            dir,
+            folder.try_lock_shared(),
+            "a whole candor run or a merge is using this results folder; wait for it to finish before starting shards",
+        )?;
         let own = lock_file(
             dir,
             &format!(".candor.shard-{}-of-{}.lock", shard.index, shard.count),
         )?;
-        match own.try_lock() {
-            Ok(()) => {}
-            Err(std::fs::TryLockError::WouldBlock) => {
-                return Err(Error::Io(format!(
-                    "{}: shard {shard} is already running on this results folder; each shard runs once at a time",
-                    dir.display()
-                )))
-            }
-            Err(std::fs::TryLockError::Error(e)) => return Err(cannot_write(dir, e)),
-        }
+        hold(
+            dir,
+            own.try_lock(),
+            &format!(
+                "shard {shard} is already running on this results folder; each shard runs once at a time"
+            ),
+        )?;
         Ok(Store {
             dir: dir.to_path_buf(),
             _locks: vec![folder, own],
@@ -139,9 +142,8 @@ impl Store {
     /// A stored record that can be reused: present, readable, matching the
     /// fingerprint and successful. Failed cells are retried.
     pub fn reusable(&self, path: &Path, fingerprint: &str) -> Option<CellRecord> {
-        let text = std::fs::read_to_string(path).ok()?;
-        let record: CellRecord = serde_json::from_str(&text).ok()?;
-        (record.fingerprint == fingerprint && record.error.is_none()).then_some(record)
+        self.stored(path, fingerprint)
+            .filter(|record| record.error.is_none())
     }
 
     /// A stored record with this fingerprint, failed or not: what a merge
@@ -154,9 +156,6 @@ impl Store {
 
     /// Stores a finished cell.
     pub fn save(&self, path: &Path, record: &CellRecord) -> Result<()> {
-        let mut text = serde_json::to_string_pretty(record)
-            .map_err(|e| Error::Io(format!("{}: cannot encode: {e}", path.display())))?;
-        text.push('\n');
-        write_atomic(path, text.as_bytes())
+        write_json(path, record)
     }
 }

@@ -223,7 +223,9 @@ impl Summary {
                     // A row a method could not fill, or one the scores'
                     // kind rules out (a margin is no probability).
                     match r {
-                        Some(r) if r.strategy.starts_with("not applicable") => "n/a".to_string(),
+                        Some(r) if r.strategy == crate::experiment::score::MARGIN_NOTE => {
+                            "n/a".to_string()
+                        }
                         _ => "failed".to_string(),
                     }
                 } else if Some(v) == best {

@@ -414,38 +414,23 @@ fn write_matrix(
     x: &Array2<f64>,
     classes: Option<(&Table, &[usize])>,
 ) -> std::io::Result<()> {
-    let mut out = BufWriter::new(File::create(path)?);
-    let mut line = String::new();
-    if classes.is_some() {
-        line.push_str("class,");
-    }
-    let names: Vec<String> = header.iter().map(|h| quote(h)).collect();
-    line.push_str(&names.join(","));
-    writeln!(out, "{line}")?;
+    let mut w = csv::Writer::from_writer(BufWriter::new(File::create(path)?));
+    let class_column = classes.map(|_| "class");
+    w.write_record(
+        class_column
+            .into_iter()
+            .chain(header.iter().map(String::as_str)),
+    )?;
+    let mut record: Vec<String> = Vec::with_capacity(header.len() + 1);
     for (i, row) in x.rows().into_iter().enumerate() {
-        line.clear();
+        record.clear();
         if let Some((table, rows)) = classes {
-            line.push_str(&table.labels[rows[i]].to_string());
-            line.push(',');
+            record.push(table.labels[rows[i]].to_string());
         }
-        for (j, v) in row.iter().enumerate() {
-            if j > 0 {
-                line.push(',');
-            }
-            line.push_str(&v.to_string());
-        }
-        writeln!(out, "{line}")?;
+        record.extend(row.iter().map(f64::to_string));
+        w.write_record(&record)?;
     }
-    out.flush()
-}
-
-/// A CSV field, quoted when it must be.
-fn quote(field: &str) -> String {
-    if field.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", field.replace('"', "\"\""))
-    } else {
-        field.to_string()
-    }
+    w.into_inner().map_err(|e| e.into_error())?.flush()
 }
 
 /// How far a row's probabilities may sum from 1 before the output is

@@ -60,29 +60,15 @@ pub fn intervals(
     if resamples == 0 || n == 0 {
         return vec![[f64::NAN, f64::NAN]; names.len()];
     }
-    let (f, o) = fc.reduced();
     let bins = opts.bins.max(1);
-    // One record per row, so a draw touches one cache line, not four.
-    let rows: Vec<Row> = terms(fc)
-        .into_iter()
-        .enumerate()
-        .map(|(i, term)| (f[i], o[i], term, width_bin(f[i], bins)))
-        .collect();
+    let rows = rows_of(fc, bins);
     let mut rng = SplitMix64::new(seed);
     let (eces, briers) = if n > EXACT_ROWS {
         normal_limit(&rows, bins, resamples, &mut rng)
     } else {
         resampled(&rows, bins, resamples, &mut rng)
     };
-    let bounds = |mut v: Vec<f64>| {
-        v.retain(|x| !x.is_nan());
-        if v.is_empty() {
-            return [f64::NAN, f64::NAN];
-        }
-        v.sort_by(f64::total_cmp);
-        [quantile(&v, 0.025), quantile(&v, 0.975)]
-    };
-    let (ece, brier) = (bounds(eces), bounds(briers));
+    let (ece, brier) = (percentile_bounds(eces), percentile_bounds(briers));
     names
         .iter()
         .map(|&name| match name {
@@ -95,6 +81,27 @@ pub fn intervals(
 
 /// A row's forecast, outcome, Brier term and equal-width bin.
 type Row = (f64, f64, f64, usize);
+
+/// Each row's forecast, outcome, Brier term and bin, side by side, so a
+/// draw touches one cache line, not four.
+fn rows_of(fc: &Forecasts<'_>, bins: usize) -> Vec<Row> {
+    let (f, o) = fc.reduced();
+    terms(fc)
+        .into_iter()
+        .enumerate()
+        .map(|(i, term)| (f[i], o[i], term, width_bin(f[i], bins)))
+        .collect()
+}
+
+/// The 95% percentile interval of the resampled values that are defined.
+fn percentile_bounds(mut v: Vec<f64>) -> [f64; 2] {
+    v.retain(|x| !x.is_nan());
+    if v.is_empty() {
+        return [f64::NAN, f64::NAN];
+    }
+    v.sort_by(f64::total_cmp);
+    [quantile(&v, 0.025), quantile(&v, 0.975)]
+}
 
 /// ECE and Brier of `resamples` resamples drawn row by row.
 fn resampled(
@@ -295,24 +302,11 @@ mod tests {
         let fc = Forecasts::new(p.view(), &y);
         let opts = MetricOptions::default();
         let limit = intervals(&fc, &RESAMPLED, &opts, 1000, 2);
-        let rows: Vec<Row> = terms(&fc)
-            .into_iter()
-            .enumerate()
-            .map(|(i, t)| {
-                (
-                    fc.reduced().0[i],
-                    fc.reduced().1[i],
-                    t,
-                    width_bin(fc.reduced().0[i], 15),
-                )
-            })
-            .collect();
-        let (e, b) = resampled(&rows, 15, 1000, &mut SplitMix64::new(2));
-        let exact = |mut v: Vec<f64>| {
-            v.sort_by(f64::total_cmp);
-            [quantile(&v, 0.025), quantile(&v, 0.975)]
-        };
-        for (got, want) in limit.iter().zip([exact(e), exact(b)]) {
+        let (e, b) = resampled(&rows_of(&fc, 15), 15, 1000, &mut SplitMix64::new(2));
+        for (got, want) in limit
+            .iter()
+            .zip([percentile_bounds(e), percentile_bounds(b)])
+        {
             let width = want[1] - want[0];
             assert!(
                 (got[0] - want[0]).abs() < 0.1 * width,

@@ -23,6 +23,7 @@
 use super::{test_over_train, Results};
 use crate::common::stats::fold_interval;
 use crate::common::table::{Table, Value};
+use crate::experiment::score::MARGIN_NOTE;
 use crate::experiment::summary::fold_values;
 
 /// How far the slope must be from 1 to count.
@@ -176,7 +177,7 @@ pub fn table(results: &Results) -> Table {
             let margins = cells.iter().any(|c| {
                 c.results
                     .iter()
-                    .any(|m| m.method == "none" && m.strategy.starts_with("not applicable"))
+                    .any(|m| m.method == "none" && m.strategy == MARGIN_NOTE)
             });
             let found = diagnose(&s, &a, &g, test_over_train(&cells));
             let label = if margins {
